@@ -1,0 +1,209 @@
+// Package accurate holds error-free transformations, compensated sums and
+// dot products, and helpers that turn a floating-point result into a proven
+// upper or lower bound on the exact real value it approximates.
+//
+// Model: IEEE 754 binary64, round to nearest, unit roundoff u = 2^-53.
+// Every bound here is derived in the standard model fl(a∘b) = (a∘b)(1+δ),
+// |δ| ≤ u (Higham, "Accuracy and Stability of Numerical Algorithms", 2nd ed.,
+// 2002, §2.2), which holds whenever no underflow occurs. Underflow is covered
+// by an absolute slack term: every product or quotient that underflows errs by
+// at most 2^-1075 in absolute value, and sums are exact in the subnormal range,
+// so each bound adds Tiny per operation it counts (Tiny = 2^-1060 is far larger
+// than any accumulated underflow error and far below any value of interest).
+//
+// The compiler is allowed to fuse a*b+c into one FMA; that only removes
+// roundings, so the bounds below remain valid. The error-free transformations
+// use math.FMA explicitly and never rely on fusion.
+package accurate
+
+import "math"
+
+// U is the unit roundoff of binary64 arithmetic, 2^-53.
+const U = 0x1p-53
+
+// Tiny is the absolute slack added per counted operation for underflow.
+const Tiny = 0x1p-1060
+
+// Gamma returns an upper bound on γ_n = n·u/(1 − n·u) (Higham 2002, Lemma 3.1).
+// It panics if n·u ≥ 1/2, where the model's constants stop being useful.
+func Gamma(n int) float64 {
+	if n < 0 {
+		panic("accurate: negative n in Gamma")
+	}
+	nu := float64(n) * U // exact for n < 2^53
+	if nu >= 0.5 {
+		panic("accurate: n too large in Gamma")
+	}
+	return Up(nu / (1 - nu)) // 1 − nu is exact in [1/2, 1]
+}
+
+// AddUp returns an upper bound on a + b (exact sum of the two floats).
+func AddUp(a, b float64) float64 { return Up(a + b) }
+
+// MulUp returns an upper bound on a·b for a, b ≥ 0.
+func MulUp(a, b float64) float64 { return Up(a * b) }
+
+// Up returns a float strictly above v when v is finite: the next float after v
+// towards +Inf. Applied to a value computed with one rounding it gives an
+// upper bound on the exact value.
+func Up(v float64) float64 { return math.Nextafter(v, math.Inf(1)) }
+
+// Down returns the next float after v towards -Inf.
+func Down(v float64) float64 { return math.Nextafter(v, math.Inf(-1)) }
+
+// UpperRel returns an upper bound on a nonnegative exact quantity E whose
+// floating-point evaluation v satisfies |v − E| ≤ γ_ops·E (an expression of
+// ops roundings on nonnegative data): E ≤ v/(1−γ_ops) ≤ v·(1+2γ_ops), each
+// operation of the bound itself rounded upwards (AddUp, MulUp), plus the
+// underflow slack.
+func UpperRel(v float64, ops int) float64 {
+	if v < 0 || math.IsNaN(v) {
+		panic("accurate: UpperRel of a negative value")
+	}
+	g := Gamma(ops)
+	b := AddUp(v, MulUp(2*g, v))
+	return AddUp(b, float64(ops+1)*Tiny)
+}
+
+// LowerRel returns a lower bound (≥ 0) on a nonnegative exact quantity E with
+// |v − E| ≤ γ_ops·E: E ≥ v/(1+γ_ops) ≥ v·(1−γ_ops), rounded downwards, less
+// the underflow slack.
+func LowerRel(v float64, ops int) float64 {
+	if v < 0 || math.IsNaN(v) {
+		panic("accurate: LowerRel of a negative value")
+	}
+	g := Gamma(ops)
+	l := Down(v - MulUp(g, v))
+	l = Down(l - float64(ops+1)*Tiny)
+	if l < 0 {
+		return 0
+	}
+	return l
+}
+
+// TwoSum returns s = fl(a+b) and e with a + b = s + e exactly
+// (Knuth, TAOCP vol. 2; Ogita, Rump, Oishi 2005, Algorithm 3.1).
+func TwoSum(a, b float64) (s, e float64) {
+	s = a + b
+	z := s - a
+	e = (a - (s - z)) + (b - z)
+	return s, e
+}
+
+// TwoProd returns p = fl(a·b) and e with a·b = p + e exactly, barring
+// underflow (Ogita, Rump, Oishi 2005, §3, with FMA).
+func TwoProd(a, b float64) (p, e float64) {
+	p = a * b
+	e = math.FMA(a, b, -p)
+	return p, e
+}
+
+// Acc accumulates a dot product Σ aᵢbᵢ (plus single terms) by the Dot2
+// scheme of Ogita, Rump, Oishi, "Accurate sum and dot product", SIAM J. Sci.
+// Comput. 26 (2005), Algorithm 5.3, and keeps what its error bound needs.
+// The zero value is an empty sum.
+type Acc struct {
+	S   float64 // running high part
+	C   float64 // running compensation
+	Abs float64 // Σ |p| of the rounded products (and |a| of added terms)
+	K   int     // number of terms
+}
+
+// AddProd adds a·b.
+func (q *Acc) AddProd(a, b float64) {
+	p, e := TwoProd(a, b)
+	s, sig := TwoSum(q.S, p)
+	q.S = s
+	q.C += sig + e
+	q.Abs += math.Abs(p)
+	q.K++
+}
+
+// Add adds a single term a.
+func (q *Acc) Add(a float64) {
+	s, sig := TwoSum(q.S, a)
+	q.S = s
+	q.C += sig
+	q.Abs += math.Abs(a)
+	q.K++
+}
+
+// Result returns the compensated value r and a proven bound b with
+// |r − exact| ≤ b.
+//
+// Derivation. Ogita, Rump, Oishi (2005), Proposition 5.5 (recalled from
+// memory, checked against the statement of the compensated dot product's
+// error in the literature): with K terms and K·u < 1,
+// |r − exact| ≤ u·|exact| + γ_K²·Σ|aᵢbᵢ|. Since |exact| ≤ |r| + err, this
+// gives err ≤ (u|r| + γ_K²·Σ|aᵢbᵢ|)/(1−u). The exact Σ|aᵢbᵢ| is at most
+// (1+u)·Σ|pᵢ| and the float sum Abs of the |pᵢ| underestimates Σ|pᵢ| by at
+// most γ_K, hence the UpperRel inflation. Underflow adds Tiny per term.
+func (q *Acc) Result() (r, bound float64) {
+	r = q.S + q.C
+	k := q.K
+	if k < 2 {
+		k = 2
+	}
+	g := Gamma(k)
+	abs := UpperRel(q.Abs, k+1)
+	b := AddUp(MulUp(U, math.Abs(r)), MulUp(MulUp(g, g), abs))
+	b = AddUp(b, MulUp(2*U, b)) // the factor 1/(1−u) ≤ 1 + 2u
+	b = AddUp(b, float64(q.K+2)*Tiny)
+	return r, b
+}
+
+// SumSqUpper returns a proven upper bound on Σ xᵢ².
+func SumSqUpper(x []float64) float64 {
+	var s float64
+	for _, v := range x {
+		s += v * v
+	}
+	return UpperRel(s, len(x)+1)
+}
+
+// SumSqLower returns a proven lower bound on Σ xᵢ² (never negative).
+func SumSqLower(x []float64) float64 {
+	var s float64
+	for _, v := range x {
+		s += v * v
+	}
+	return LowerRel(s, len(x)+1)
+}
+
+// SqrtUp returns an upper bound on √E given an upper bound v ≥ E ≥ 0.
+func SqrtUp(v float64) float64 { return Up(math.Sqrt(v)) }
+
+// SqrtDown returns a lower bound on √E given a lower bound 0 ≤ v ≤ E.
+func SqrtDown(v float64) float64 {
+	if v <= 0 {
+		return 0
+	}
+	l := Down(math.Sqrt(v))
+	if l < 0 {
+		return 0
+	}
+	return l
+}
+
+// MaxAbs returns max |xᵢ| (0 for an empty slice; NaN propagates as NaN).
+func MaxAbs(x []float64) float64 {
+	var m float64
+	for _, v := range x {
+		a := math.Abs(v)
+		if a > m || a != a {
+			m = a
+		}
+	}
+	return m
+}
+
+// Pow2Scale returns the power of two s such that max|xᵢ|·s lies in [1, 2),
+// or 1 when x is all zero. Multiplying by s is exact unless entries fall into
+// the subnormal range, which callers must check when exactness matters.
+func Pow2Scale(maxAbs float64) float64 {
+	if maxAbs == 0 || math.IsInf(maxAbs, 0) || math.IsNaN(maxAbs) {
+		return 1
+	}
+	_, e := math.Frexp(maxAbs) // maxAbs = f·2^e, f ∈ [0.5, 1)
+	return math.Ldexp(1, 1-e)
+}

@@ -1,0 +1,195 @@
+package subspace
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/accurate"
+)
+
+// ResidualBound returns a proven upper bound on dist_F(x yᵀ, W) for the
+// vectors x, y exactly as given (not normalised), W being the subspace the
+// stored vectors define exactly. It never underestimates, whatever the
+// rounding; it returns +Inf when it cannot prove anything finite.
+//
+// Derivation, W stored (rows S, not assumed orthonormal). For every float
+// coefficient vector c, Sᵀc ∈ W exactly, so dist(x⊗y, W) ≤ ‖x⊗y − Sᵀc‖.
+// We take c = fl(S v) refined once by c += fl(S fl(v − Sᵀc)), and evaluate
+// each entry ρ_ℓ = x_i y_j − Σ_t c_t S_tℓ of the residual with the
+// compensated dot product accurate.Acc, which returns ρ̃_ℓ and a proven
+// b_ℓ ≥ |ρ̃_ℓ − ρ_ℓ|. Then ‖ρ‖² ≤ Σ_ℓ (|ρ̃_ℓ| + b_ℓ)², evaluated with upward
+// rounding.
+//
+// Derivation, W⊥ stored (rows S spanning W⊥ exactly, Gram matrix
+// SSᵀ = I + E with ‖E‖₂ ≤ η). The projector onto span(S) is
+// Sᵀ(SSᵀ)⁻¹S ⪯ SᵀS/(1−η), so dist(v, W)² = vᵀ Sᵀ(SSᵀ)⁻¹S v ≤ ‖Sv‖²/(1−η).
+// Each v_ℓ = x_i y_j is split exactly as p_ℓ + e_ℓ (TwoProd), and each
+// (Sv)_t = Σ_ℓ S_tℓ(p_ℓ + e_ℓ) is evaluated by the compensated dot product
+// with its proven error bound.
+//
+// It panics if len(x) ≠ m or len(y) ≠ n.
+func (w *Subspace) ResidualBound(x, y []float64) float64 {
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	m, n, L := w.m, w.n, w.m*w.n
+	for _, v := range x {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return math.Inf(1)
+		}
+	}
+	for _, v := range y {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return math.Inf(1)
+		}
+	}
+	if w.comp {
+		if w.eta >= 0.5 {
+			return math.Inf(1)
+		}
+		p := make([]float64, L)
+		e := make([]float64, L)
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				p[i*n+j], e[i*n+j] = accurate.TwoProd(x[i], y[j])
+			}
+		}
+		var ss float64
+		for t := 0; t < w.s; t++ {
+			row := w.q[t*L : (t+1)*L]
+			var acc accurate.Acc
+			for l, st := range row {
+				acc.AddProd(st, p[l])
+				acc.AddProd(st, e[l])
+			}
+			r, b := acc.Result()
+			f := accurate.AddUp(math.Abs(r), b)
+			ss += f * f
+		}
+		ss = accurate.UpperRel(ss, 2*w.s+2)
+		inv := accurate.Up(1 / accurate.Down(1-w.eta))
+		return accurate.SqrtUp(accurate.MulUp(ss, inv))
+	}
+	v := make([]float64, L)
+	kron(v, x, y)
+	c := make([]float64, w.s)
+	if w.s > 0 {
+		w.coeffs(c, v)
+		r := append([]float64(nil), v...)
+		blas64.Gemv(blas.Trans, -1, w.stored(), blas64.Vector{N: w.s, Data: c, Inc: 1}, 1, blas64.Vector{N: L, Data: r, Inc: 1})
+		dc := make([]float64, w.s)
+		w.coeffs(dc, r)
+		for t := range c {
+			c[t] += dc[t]
+		}
+	}
+	acc := make([]accurate.Acc, L)
+	for i := 0; i < m; i++ {
+		for j := 0; j < n; j++ {
+			acc[i*n+j].AddProd(x[i], y[j])
+		}
+	}
+	for t := 0; t < w.s; t++ {
+		ct := -c[t]
+		if ct == 0 {
+			continue
+		}
+		row := w.q[t*L : (t+1)*L]
+		for l, st := range row {
+			acc[l].AddProd(ct, st)
+		}
+	}
+	var ss float64
+	for l := range acc {
+		r, b := acc[l].Result()
+		f := accurate.AddUp(math.Abs(r), b)
+		ss += f * f
+	}
+	return accurate.SqrtUp(accurate.UpperRel(ss, 2*L+2))
+}
+
+// partialTraces caches the flattening matrices and their bounds.
+type partialTraces struct {
+	t1, t2 *mat.SymDense
+	d1, d2 float64
+}
+
+// PartialTraces returns symmetric T1 (m×m) and T2 (n×n) and numbers
+// δ1, δ2 ≥ 0 such that, in exact arithmetic for the stored subspace,
+//
+//	Tr₂(P_W) ⪯ T1 + δ1·I   and   Tr₁(P_W) ⪯ T2 + δ2·I,
+//
+// where Tr₂(P)_ab = Σ_j P[(a,j),(b,j)] and Tr₁(P)_cd = Σ_i P[(i,c),(i,d)] are
+// the partial traces (for an orthonormal basis Q_t of W, Tr₂(P_W) = Σ Q_tQ_tᵀ
+// and Tr₁(P_W) = Σ Q_tᵀQ_t). The returned matrices are copies.
+//
+// Derivation (W stored, rows S, Gram SSᵀ = I + E, ‖E‖ ≤ η): P_W =
+// Sᵀ(SSᵀ)⁻¹S ⪯ SᵀS/(1−η), and the partial trace is a positive map, so
+// Tr₂(P_W) ⪯ Σ_t S_tS_tᵀ/(1−η) ⪯ Σ_t S_tS_tᵀ + (η/(1−η))·‖S‖_F²·I. The float
+// sum T1 = fl(Σ_t S_tS_tᵀ) errs entrywise by at most γ_{sn}Σ|S||S|ᵀ, whose
+// spectral norm is at most γ_{sn}‖S‖_F² (Cauchy–Schwarz on each entry, then
+// the rank-one majorant [‖r_a‖‖r_b‖] has norm Σ_a‖r_a‖² = ‖S‖_F²).
+// (W⊥ stored): Tr₂(P_W) = n·I − Tr₂(P_{W⊥}) and P_{W⊥} ⪰ SᵀS/(1+η), so
+// Tr₂(P_W) ⪯ n·I − fl(ΣS_tS_tᵀ) + (γ_{sn}‖S‖_F² + (η/(1+η))‖S‖_F²)·I; the
+// rounding of the diagonal n − T_ii adds 2u·max|T_ii|. Likewise for Tr₁.
+// If η ≥ 1/2 the deltas are +Inf.
+func (w *Subspace) PartialTraces() (t1 *mat.SymDense, d1 float64, t2 *mat.SymDense, d2 float64) {
+	w.ptOnce.Do(w.computePartialTraces)
+	return mat.NewSymDense(w.m, append([]float64(nil), w.pt.t1.RawSymmetric().Data...)), w.pt.d1,
+		mat.NewSymDense(w.n, append([]float64(nil), w.pt.t2.RawSymmetric().Data...)), w.pt.d2
+}
+
+func (w *Subspace) computePartialTraces() {
+	m, n, L := w.m, w.n, w.m*w.n
+	a := blas64.Symmetric{N: m, Stride: m, Data: make([]float64, m*m), Uplo: blas.Upper}
+	b := blas64.Symmetric{N: n, Stride: n, Data: make([]float64, n*n), Uplo: blas.Upper}
+	for t := 0; t < w.s; t++ {
+		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: w.q[t*L : (t+1)*L]}, 1, a)
+	}
+	if w.s > 0 {
+		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}, 0, b)
+	}
+	fill := func(s blas64.Symmetric) {
+		for i := 0; i < s.N; i++ {
+			for j := 0; j < i; j++ {
+				s.Data[i*s.N+j] = s.Data[j*s.N+i]
+			}
+		}
+	}
+	fill(a)
+	fill(b)
+	sf := accurate.SumSqUpper(w.q)
+	form1 := accurate.MulUp(accurate.Gamma(w.s*n+1), sf)
+	form2 := accurate.MulUp(accurate.Gamma(w.s*m+1), sf)
+	var d1, d2 float64
+	if w.eta >= 0.5 {
+		d1, d2 = math.Inf(1), math.Inf(1)
+	} else if !w.comp {
+		f := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1-w.eta)), sf)
+		d1 = accurate.AddUp(form1, f)
+		d2 = accurate.AddUp(form2, f)
+	} else {
+		f := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1+w.eta)), sf)
+		d1 = accurate.AddUp(form1, f)
+		d2 = accurate.AddUp(form2, f)
+		d1 = accurate.AddUp(d1, complementDiag(a, float64(n)))
+		d2 = accurate.AddUp(d2, complementDiag(b, float64(m)))
+	}
+	w.pt = partialTraces{t1: mat.NewSymDense(m, a.Data), t2: mat.NewSymDense(n, b.Data), d1: d1, d2: d2}
+}
+
+// complementDiag replaces s by c·I − s in place and returns the bound
+// 2u·max|c − s_ii| on the rounding of its new diagonal.
+func complementDiag(s blas64.Symmetric, c float64) float64 {
+	var mx float64
+	for i := range s.Data {
+		s.Data[i] = -s.Data[i]
+	}
+	for i := 0; i < s.N; i++ {
+		s.Data[i*s.N+i] += c
+		mx = math.Max(mx, math.Abs(s.Data[i*s.N+i]))
+	}
+	return accurate.MulUp(2*accurate.U, mx)
+}

@@ -1,0 +1,275 @@
+package subspace
+
+import (
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// The contractions below treat the stored vectors S (s × mn) as an exactly
+// orthonormal family: P_W = SᵀS when W is stored, P_W = I − SᵀS when W⊥ is.
+// They are the fast, uncertified oracles of the searches; the certified
+// bounds are in bound.go.
+
+func (w *Subspace) checkX(x []float64, what string) {
+	if len(x) != w.m {
+		panic("subspace: " + what + " has length " + itoa(len(x)) + ", want m = " + itoa(w.m))
+	}
+}
+
+func (w *Subspace) checkY(y []float64, what string) {
+	if len(y) != w.n {
+		panic("subspace: " + what + " has length " + itoa(len(y)) + ", want n = " + itoa(w.n))
+	}
+}
+
+func itoa(v int) string {
+	if v == 0 {
+		return "0"
+	}
+	neg := v < 0
+	if neg {
+		v = -v
+	}
+	var b [20]byte
+	i := len(b)
+	for v > 0 {
+		i--
+		b[i] = byte('0' + v%10)
+		v /= 10
+	}
+	if neg {
+		i--
+		b[i] = '-'
+	}
+	return string(b[i:])
+}
+
+func (w *Subspace) stored() blas64.General {
+	return blas64.General{Rows: w.s, Cols: w.m * w.n, Stride: w.m * w.n, Data: w.q}
+}
+
+// kron writes x⊗y into v.
+func kron(v, x, y []float64) {
+	n := len(y)
+	for i, xi := range x {
+		row := v[i*n : (i+1)*n]
+		for j, yj := range y {
+			row[j] = xi * yj
+		}
+	}
+}
+
+func dot(a, b []float64) float64 {
+	return blas64.Dot(blas64.Vector{N: len(a), Data: a, Inc: 1}, blas64.Vector{N: len(b), Data: b, Inc: 1})
+}
+
+// coeffs sets c = S a (length s).
+func (w *Subspace) coeffs(c, a []float64) {
+	if w.s == 0 {
+		return
+	}
+	blas64.Gemv(blas.NoTrans, 1, w.stored(), blas64.Vector{N: len(a), Data: a, Inc: 1}, 0, blas64.Vector{N: w.s, Data: c, Inc: 1})
+}
+
+// Value returns ‖P_W(x⊗y)‖², which is h(x, y) for unit x and y.
+// It panics if len(x) ≠ m or len(y) ≠ n.
+func (w *Subspace) Value(x, y []float64) float64 {
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	v := make([]float64, w.m*w.n)
+	kron(v, x, y)
+	c := make([]float64, w.s)
+	w.coeffs(c, v)
+	cc := dot(c, c)
+	if w.comp {
+		return dot(x, x)*dot(y, y) - cc
+	}
+	return cc
+}
+
+// Residual returns ‖x⊗y − P_W(x⊗y)‖², which is d²(x, y) for unit x and y.
+// It is computed from the residual vector itself (never as 1 − h), so it is
+// accurate to about u·‖x‖‖y‖ in d even when d is tiny.
+// It panics if len(x) ≠ m or len(y) ≠ n.
+func (w *Subspace) Residual(x, y []float64) float64 {
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	L := w.m * w.n
+	v := make([]float64, L)
+	kron(v, x, y)
+	c := make([]float64, w.s)
+	w.coeffs(c, v)
+	if w.comp {
+		return dot(c, c)
+	}
+	if w.s > 0 {
+		blas64.Gemv(blas.Trans, -1, w.stored(), blas64.Vector{N: w.s, Data: c, Inc: 1}, 1, blas64.Vector{N: L, Data: v, Inc: 1})
+	}
+	return dot(v, v)
+}
+
+// Project writes P_W a into dst, for a full matrix a given as its row-major
+// vec (length mn). dst and a may be the same slice.
+// It panics if len(a) or len(dst) ≠ mn.
+func (w *Subspace) Project(dst, a []float64) {
+	L := w.m * w.n
+	if len(a) != L || len(dst) != L {
+		panic("subspace: Project needs vectors of length m·n = " + itoa(L))
+	}
+	c := make([]float64, w.s)
+	w.coeffs(c, a)
+	if w.comp {
+		copy(dst, a)
+		if w.s > 0 {
+			blas64.Gemv(blas.Trans, -1, w.stored(), blas64.Vector{N: w.s, Data: c, Inc: 1}, 1, blas64.Vector{N: L, Data: dst, Inc: 1})
+		}
+		return
+	}
+	if w.s == 0 {
+		clear(dst)
+		return
+	}
+	blas64.Gemv(blas.Trans, 1, w.stored(), blas64.Vector{N: w.s, Data: c, Inc: 1}, 0, blas64.Vector{N: L, Data: dst, Inc: 1})
+}
+
+// Gradient returns h = ‖P_W(x⊗y)‖² and writes its Euclidean gradient:
+// gx = ∂h/∂x = 2·M y and gy = ∂h/∂y = 2·Mᵀx, where M = P_W(x yᵀ).
+// If buf is non-nil it must have length mn and receives vec(M).
+// It panics on wrong lengths.
+func (w *Subspace) Gradient(gx, gy, x, y, buf []float64) float64 {
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	w.checkX(gx, "gx")
+	w.checkY(gy, "gy")
+	L := w.m * w.n
+	if buf == nil {
+		buf = make([]float64, L)
+	} else if len(buf) != L {
+		panic("subspace: Gradient's matrix buffer must have length m·n")
+	}
+	kron(buf, x, y)
+	w.Project(buf, buf)
+	mm := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: buf}
+	blas64.Gemv(blas.NoTrans, 2, mm, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: gx, Inc: 1})
+	blas64.Gemv(blas.Trans, 2, mm, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: gy, Inc: 1})
+	return dot(gx, x) / 2
+}
+
+// zy writes Z = [Q_t y]_t (s×m, row-major) for the stored matrices Q_t.
+func (w *Subspace) zy(z, y []float64) {
+	if w.s == 0 {
+		return
+	}
+	g := blas64.General{Rows: w.s * w.m, Cols: w.n, Stride: w.n, Data: w.q}
+	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.s * w.m, Data: z, Inc: 1})
+}
+
+// zx writes Z = [Q_tᵀ x]_t (s×n, row-major).
+func (w *Subspace) zx(z, x []float64) {
+	L := w.m * w.n
+	for t := 0; t < w.s; t++ {
+		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
+		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: z[t*w.n : (t+1)*w.n], Inc: 1})
+	}
+}
+
+// gram sets dst = ZᵀZ for Z (s×p), or ‖v‖²I − ZᵀZ when the complement is
+// stored, with p the order of dst.
+func (w *Subspace) gram(dst *mat.SymDense, z []float64, p int, v []float64) {
+	if dst.IsEmpty() {
+		dst.ReuseAsSym(p)
+	}
+	if dst.SymmetricDim() != p {
+		panic("subspace: partial matrix has the wrong order")
+	}
+	raw := dst.RawSymmetric()
+	if raw.Uplo != blas.Upper {
+		panic("subspace: partial matrix must be stored upper")
+	}
+	if w.s > 0 {
+		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s, Cols: p, Stride: p, Data: z}, 0, raw)
+	} else {
+		for i := 0; i < p; i++ {
+			for j := i; j < p; j++ {
+				raw.Data[i*raw.Stride+j] = 0
+			}
+		}
+	}
+	if w.comp {
+		vv := dot(v, v)
+		for i := 0; i < p; i++ {
+			for j := i; j < p; j++ {
+				raw.Data[i*raw.Stride+j] = -raw.Data[i*raw.Stride+j]
+			}
+			raw.Data[i*raw.Stride+i] += vv
+		}
+	}
+}
+
+// G writes the m×m matrix G(y) = (I⊗y)ᵀ P_W (I⊗y) into dst, so that
+// xᵀG(y)x = ‖P_W(x⊗y)‖². An empty dst is resized.
+// It panics if len(y) ≠ n or dst is not empty and not m×m.
+func (w *Subspace) G(dst *mat.SymDense, y []float64) {
+	w.checkY(y, "y")
+	z := make([]float64, w.s*w.m)
+	w.zy(z, y)
+	w.gram(dst, z, w.m, y)
+}
+
+// H writes the n×n matrix H(x) = (x⊗I)ᵀ P_W (x⊗I) into dst, so that
+// yᵀH(x)y = ‖P_W(x⊗y)‖². An empty dst is resized.
+// It panics if len(x) ≠ m or dst is not empty and not n×n.
+func (w *Subspace) H(dst *mat.SymDense, x []float64) {
+	w.checkX(x, "x")
+	z := make([]float64, w.s*w.n)
+	w.zx(z, x)
+	w.gram(dst, z, w.n, x)
+}
+
+// ApplyG writes G(y)·x into dst (length m) without forming G(y).
+// It panics on wrong lengths.
+func (w *Subspace) ApplyG(dst, y, x []float64) {
+	w.checkY(y, "y")
+	w.checkX(x, "x")
+	w.checkX(dst, "dst")
+	z := make([]float64, w.s*w.m)
+	w.zy(z, y)
+	w.applyGram(dst, z, w.m, x, y)
+}
+
+// ApplyH writes H(x)·y into dst (length n) without forming H(x).
+// It panics on wrong lengths.
+func (w *Subspace) ApplyH(dst, x, y []float64) {
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	w.checkY(dst, "dst")
+	z := make([]float64, w.s*w.n)
+	w.zx(z, x)
+	w.applyGram(dst, z, w.n, y, x)
+}
+
+// applyGram sets dst = ZᵀZ u (or ‖v‖²u − ZᵀZu for the complement).
+func (w *Subspace) applyGram(dst, z []float64, p int, u, v []float64) {
+	var zs blas64.General
+	c := make([]float64, w.s)
+	if w.s > 0 {
+		zs = blas64.General{Rows: w.s, Cols: p, Stride: p, Data: z}
+		blas64.Gemv(blas.NoTrans, 1, zs, blas64.Vector{N: p, Data: u, Inc: 1}, 0, blas64.Vector{N: w.s, Data: c, Inc: 1})
+	}
+	if w.comp {
+		vv := dot(v, v)
+		for i := range dst {
+			dst[i] = vv * u[i]
+		}
+		if w.s > 0 {
+			blas64.Gemv(blas.Trans, -1, zs, blas64.Vector{N: w.s, Data: c, Inc: 1}, 1, blas64.Vector{N: p, Data: dst, Inc: 1})
+		}
+		return
+	}
+	if w.s == 0 {
+		clear(dst)
+		return
+	}
+	blas64.Gemv(blas.Trans, 1, zs, blas64.Vector{N: w.s, Data: c, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
+}

@@ -1,0 +1,475 @@
+// Package subspace holds a linear subspace W of real m×n matrices, built
+// from any spanning set, and answers the contractions that every rank-one
+// search needs.
+//
+// Conventions. vec is row-major: vec(M)[i·n+j] = M[i][j], so vec(x yᵀ) = x⊗y.
+// For x ∈ R^m, y ∈ R^n the value is h(x, y) = ‖P_W(x⊗y)‖² and the squared
+// distance is d²(x, y) = ‖x⊗y − P_W(x⊗y)‖²; for unit x, y, h + d² = 1.
+// Value and Residual are these homogeneous forms (degree four in (x, y));
+// callers that want h and d² pass unit vectors.
+//
+// The stored basis. New orthonormalises the input by Householder QR with
+// column pivoting and keeps whichever of W and W⊥ has the smaller dimension,
+// as s floating-point vectors of length mn. Every contraction reads only that
+// storage. The certified bounds (ResidualBound, PartialTraces) are proven for
+// the subspace the stored vectors span exactly (W itself, or the orthogonal
+// complement of the stored span); BackwardError says how far that stored
+// subspace is from the span of the input.
+//
+// Contracts. Inputs are never modified. A Subspace is immutable after New and
+// safe for concurrent use. Bad user data gives an error wrapping one of the
+// Err values below; a vector or matrix of the wrong size passed to a
+// contraction is a programmer error and panics with a "subspace:" message.
+package subspace
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sync"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+
+	"github.com/segre-lab/segre/internal/accurate"
+)
+
+// Errors for bad user data, usable with errors.Is.
+var (
+	ErrEmpty     = errors.New("subspace: no matrices")
+	ErrShape     = errors.New("subspace: shapes do not agree")
+	ErrNotFinite = errors.New("subspace: entry is NaN or infinite")
+	ErrZero      = errors.New("subspace: every matrix is zero")
+	ErrTooLarge  = errors.New("subspace: input too large for the memory limit")
+	ErrFormat    = errors.New("subspace: malformed file")
+	ErrOption    = errors.New("subspace: invalid option")
+)
+
+// DefaultMaxBytes is the working-storage limit used when Options.MaxBytes is 0.
+const DefaultMaxBytes int64 = 4 << 30
+
+// Basis is r real m×n matrices stored contiguously:
+// Data[(t·Rows + i)·Cols + j] is entry (i, j) of matrix t.
+type Basis struct {
+	Count, Rows, Cols int
+	Data              []float64
+}
+
+// Matrix returns a copy of matrix t of b as a row-major slice.
+func (b Basis) Matrix(t int) []float64 {
+	L := b.Rows * b.Cols
+	return append([]float64(nil), b.Data[t*L:(t+1)*L]...)
+}
+
+// Options configures New. The zero value gives the defaults.
+type Options struct {
+	// Tol is the rank tolerance. Every input matrix is first scaled to unit
+	// Frobenius norm; pivoted QR then stops when every remaining matrix lies
+	// within Frobenius distance Tol of the span of those already chosen.
+	// Zero means max(m·n, r)·2^-52, the usual rule for numerical rank
+	// (common practice: NumPy's matrix_rank and LAPACK-based codes use
+	// σ_max·max(M, N)·eps). Tol must be in [0, 1).
+	Tol float64
+	// MaxBytes limits the working storage New may allocate; inputs that
+	// would need more are refused with ErrTooLarge before any allocation.
+	// Zero means DefaultMaxBytes; negative is invalid.
+	MaxBytes int64
+}
+
+// Subspace is a linear subspace of m×n real matrices with its stored basis.
+type Subspace struct {
+	m, n, k int
+	comp    bool      // stored vectors span W⊥ rather than W
+	s       int       // number of stored vectors
+	q       []float64 // s×(m·n), row t is stored vector t
+	tol     float64
+
+	inputs, zeros int
+	recon         float64 // ‖B̂Π − QR‖_F / ‖B̂‖_F for the unit-normalised input B̂
+	orthFl        float64 // ‖SSᵀ − I‖_F as computed
+	eta           float64 // proven bound on ‖SSᵀ − I‖₂
+
+	ptOnce sync.Once
+	pt     partialTraces
+}
+
+// Rows returns m. Cols returns n. Dim returns the numerical dimension k of W.
+func (w *Subspace) Rows() int { return w.m }
+
+// Cols returns n, the number of columns of the matrices.
+func (w *Subspace) Cols() int { return w.n }
+
+// Dim returns the numerical dimension k of W.
+func (w *Subspace) Dim() int { return w.k }
+
+// Tol returns the rank tolerance that was used.
+func (w *Subspace) Tol() float64 { return w.tol }
+
+// Inputs returns how many matrices were given and how many of them were
+// exactly zero (and so contributed nothing).
+func (w *Subspace) Inputs() (given, zero int) { return w.inputs, w.zeros }
+
+// StoresComplement reports whether the stored vectors span W⊥ (used when
+// dim W > mn/2). It is informational; no contraction depends on it.
+func (w *Subspace) StoresComplement() bool { return w.comp }
+
+// BackwardError returns the relative reconstruction error
+// ‖B̂Π − QR‖_F/‖B̂‖_F of the pivoted QR of the unit-normalised input B̂ (it is
+// at most about Tol·√r plus rounding), and the computed ‖SSᵀ − I‖_F of the
+// stored vectors S.
+func (w *Subspace) BackwardError() (reconstruction, orthogonality float64) {
+	return w.recon, w.orthFl
+}
+
+// OrthogonalityBound returns η, a proven upper bound on ‖SSᵀ − I‖₂ for the
+// stored vectors S, rounding of its computation included. Certified bounds
+// inflate by η where orthonormality is used.
+func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
+
+// New builds the subspace spanned by the matrices of b. b is not modified.
+func New(b Basis, opt Options) (*Subspace, error) {
+	if opt.Tol < 0 || opt.Tol >= 1 || math.IsNaN(opt.Tol) {
+		return nil, fmt.Errorf("%w: Tol = %v, want 0 ≤ Tol < 1", ErrOption, opt.Tol)
+	}
+	if opt.MaxBytes < 0 {
+		return nil, fmt.Errorf("%w: MaxBytes = %d is negative", ErrOption, opt.MaxBytes)
+	}
+	limit := opt.MaxBytes
+	if limit == 0 {
+		limit = DefaultMaxBytes
+	}
+	r, m, n := b.Count, b.Rows, b.Cols
+	if r == 0 {
+		return nil, ErrEmpty
+	}
+	if r < 0 || m <= 0 || n <= 0 {
+		return nil, fmt.Errorf("%w: %d matrices of %d×%d", ErrShape, r, m, n)
+	}
+	L, ok := mulOK(m, n)
+	total, ok2 := mulOK(L, r)
+	if !ok || !ok2 {
+		return nil, fmt.Errorf("%w: %d matrices of %d×%d overflow the address space", ErrTooLarge, r, m, n)
+	}
+	if len(b.Data) != total {
+		return nil, fmt.Errorf("%w: %d matrices of %d×%d need %d entries, have %d", ErrShape, r, m, n, total, len(b.Data))
+	}
+	if need := workBytes(r, L); need > limit || need < 0 {
+		return nil, fmt.Errorf("%w: %d matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, r, m, n, need, limit)
+	}
+	for idx, v := range b.Data {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			t, rem := idx/L, idx%L
+			return nil, fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/n, rem%n, v)
+		}
+	}
+	tol := opt.Tol
+	if tol == 0 {
+		tol = float64(max(L, r)) * 0x1p-52
+		if tol >= 0.5 {
+			tol = 0.5
+		}
+	}
+
+	// Copy the nonzero matrices, each scaled to unit Frobenius norm.
+	a := make([]float64, 0, total)
+	var orig []int // orig[c] = input index of copied column c
+	var scale []float64
+	zeros := 0
+	for t := 0; t < r; t++ {
+		src := b.Data[t*L : (t+1)*L]
+		nrm := blas64.Nrm2(blas64.Vector{N: L, Data: src, Inc: 1})
+		if nrm == 0 {
+			zeros++
+			continue
+		}
+		a = append(a, src...)
+		row := a[len(a)-L:]
+		if math.IsInf(1/nrm, 0) || math.IsInf(nrm, 0) {
+			// Rescale in two steps to stay in range.
+			f := accurate.Pow2Scale(accurate.MaxAbs(row))
+			for i := range row {
+				row[i] *= f
+			}
+			nrm = blas64.Nrm2(blas64.Vector{N: L, Data: row, Inc: 1})
+			f2 := 1 / nrm
+			for i := range row {
+				row[i] *= f2
+			}
+			scale = append(scale, f*f2)
+		} else {
+			f := 1 / nrm
+			for i := range row {
+				row[i] *= f
+			}
+			scale = append(scale, f)
+		}
+		orig = append(orig, t)
+	}
+	rr := len(orig)
+	if rr == 0 {
+		return nil, fmt.Errorf("%w: all %d matrices of %d×%d", ErrZero, r, m, n)
+	}
+
+	f := pivotedQR(a, rr, L, tol)
+	k := f.k
+	w := &Subspace{m: m, n: n, k: k, tol: tol, inputs: r, zeros: zeros}
+	w.comp = L-k < k
+
+	var refl []float64
+	if w.comp {
+		refl = append([]float64(nil), a[:k*L]...)
+	}
+	f.formQ(a, L)
+	qw := a[:k*L]
+	w.recon = reconstruction(b.Data, orig, scale, f, qw, L)
+	if w.comp {
+		a = nil // release the input copy before the complement is built
+		w.s = L - k
+		w.q = complementBasis(refl, f.beta, k, L)
+	} else {
+		w.s = k
+		w.q = qw[: k*L : k*L]
+	}
+	w.orthFl, w.eta = orthogonality(w.q, w.s, L)
+	return w, nil
+}
+
+// workBytes estimates New's peak working storage in bytes for r matrices of
+// L entries: the normalised copy, R, and (at most) a complement basis.
+func workBytes(r, L int) int64 {
+	k := int64(min(r, L))
+	b := int64(r)*int64(L) + k*int64(r) + 4*int64(L)
+	if L-int(k) < int(k) {
+		b += int64(L-int(k))*int64(L) + k*int64(L)
+	}
+	return 8 * b
+}
+
+func mulOK(a, b int) (int, bool) {
+	if a == 0 || b == 0 {
+		return 0, true
+	}
+	c := a * b
+	if c/b != a || c < 0 {
+		return 0, false
+	}
+	return c, true
+}
+
+// qrFactors describes a pivoted Householder QR of the rr×L row array a
+// (rows are the columns of the mn×rr matrix being factored).
+type qrFactors struct {
+	k    int
+	perm []int     // perm[j] = copied column in pivot position j
+	diag []float64 // R_jj
+	beta []float64 // H_j = I − beta_j v_j v_jᵀ, v_j stored in row j from entry j
+	r    []float64 // R, k×rr row-major, in pivoted column order
+}
+
+// pivotedQR factors a in place (Businger & Golub, Numer. Math. 7, 1965:
+// Householder QR with column pivoting; partial norms downdated as in LAPACK's
+// xLAQP2, recomputed when cancellation makes the downdate unreliable).
+// It stops at the first step where every remaining partial norm is ≤ tol.
+func pivotedQR(a []float64, rr, L int, tol float64) *qrFactors {
+	f := &qrFactors{perm: make([]int, rr)}
+	nrm := make([]float64, rr)
+	ref := make([]float64, rr)
+	for i := range rr {
+		f.perm[i] = i
+		nrm[i] = blas64.Nrm2(blas64.Vector{N: L, Data: a[i*L : (i+1)*L], Inc: 1})
+		ref[i] = nrm[i]
+	}
+	tol3z := math.Sqrt(0x1p-52)
+	steps := min(rr, L)
+	w := make([]float64, rr)
+	for j := 0; j < steps; j++ {
+		p := j
+		for i := j + 1; i < rr; i++ {
+			if nrm[i] > nrm[p] {
+				p = i
+			}
+		}
+		if p != j {
+			blas64.Swap(blas64.Vector{N: L, Data: a[j*L:], Inc: 1}, blas64.Vector{N: L, Data: a[p*L:], Inc: 1})
+			nrm[j], nrm[p] = nrm[p], nrm[j]
+			ref[j], ref[p] = ref[p], ref[j]
+			f.perm[j], f.perm[p] = f.perm[p], f.perm[j]
+		}
+		x := a[j*L+j : (j+1)*L]
+		xn := blas64.Nrm2(blas64.Vector{N: len(x), Data: x, Inc: 1})
+		if xn <= tol {
+			break
+		}
+		// H = I − beta·v vᵀ with v = x − alpha·e₁, alpha = −sign(x₀)‖x‖, so that
+		// Hx = alpha·e₁ and vᵀv = 2‖x‖(‖x‖ + |x₀|) without cancellation.
+		x0 := x[0]
+		alpha := -math.Copysign(xn, x0)
+		x[0] = x0 - alpha
+		beta := 1 / (xn * (xn + math.Abs(x0)))
+		f.diag = append(f.diag, alpha)
+		f.beta = append(f.beta, beta)
+		f.k = j + 1
+		if rest := rr - j - 1; rest > 0 {
+			blk := blas64.General{Rows: rest, Cols: L - j, Stride: L, Data: a[(j+1)*L+j:]}
+			v := blas64.Vector{N: L - j, Data: x, Inc: 1}
+			wv := blas64.Vector{N: rest, Data: w[:rest], Inc: 1}
+			blas64.Gemv(blas.NoTrans, 1, blk, v, 0, wv)
+			blas64.Ger(-beta, wv, v, blk)
+			for i := j + 1; i < rr; i++ {
+				if nrm[i] == 0 {
+					continue
+				}
+				t := math.Abs(a[i*L+j]) / nrm[i]
+				t = math.Max(0, (1+t)*(1-t))
+				t2 := t * (nrm[i] / ref[i]) * (nrm[i] / ref[i])
+				if t2 <= tol3z {
+					if j+1 < L {
+						nrm[i] = blas64.Nrm2(blas64.Vector{N: L - j - 1, Data: a[i*L+j+1 : (i+1)*L], Inc: 1})
+					} else {
+						nrm[i] = 0
+					}
+					ref[i] = nrm[i]
+				} else {
+					nrm[i] *= math.Sqrt(t)
+				}
+			}
+		}
+	}
+	k := f.k
+	f.r = make([]float64, k*rr)
+	for i := 0; i < rr; i++ {
+		for p := 0; p < min(i, k); p++ {
+			f.r[p*rr+i] = a[i*L+p]
+		}
+		if i < k {
+			f.r[i*rr+i] = f.diag[i]
+		}
+	}
+	return f
+}
+
+// formQ overwrites rows 0..k−1 of a with the first k columns of
+// H_0 H_1 ⋯ H_{k−1} (backward accumulation, as LAPACK's xORG2R).
+func (f *qrFactors) formQ(a []float64, L int) {
+	k := f.k
+	w := make([]float64, k)
+	for j := k - 1; j >= 0; j-- {
+		v := a[j*L+j : (j+1)*L]
+		if rest := k - j - 1; rest > 0 {
+			for i := j + 1; i < k; i++ {
+				a[i*L+j] = 0
+			}
+			blk := blas64.General{Rows: rest, Cols: L - j, Stride: L, Data: a[(j+1)*L+j:]}
+			vv := blas64.Vector{N: L - j, Data: v, Inc: 1}
+			wv := blas64.Vector{N: rest, Data: w[:rest], Inc: 1}
+			blas64.Gemv(blas.NoTrans, 1, blk, vv, 0, wv)
+			blas64.Ger(-f.beta[j], wv, vv, blk)
+		}
+		c := f.beta[j] * v[0]
+		for t := range v {
+			v[t] *= -c
+		}
+		v[0] += 1
+		for t := 0; t < j; t++ {
+			a[j*L+t] = 0
+		}
+	}
+}
+
+// complementBasis returns the last L−k columns of H_0 ⋯ H_{k−1}, an
+// orthonormal basis of the orthogonal complement of the first k, as rows.
+func complementBasis(refl, beta []float64, k, L int) []float64 {
+	s := L - k
+	out := make([]float64, s*L)
+	for t := 0; t < s; t++ {
+		out[t*L+k+t] = 1
+	}
+	if s == 0 {
+		return out
+	}
+	w := make([]float64, s)
+	for j := k - 1; j >= 0; j-- {
+		v := blas64.Vector{N: L - j, Data: refl[j*L+j : (j+1)*L], Inc: 1}
+		blk := blas64.General{Rows: s, Cols: L - j, Stride: L, Data: out[j:]}
+		wv := blas64.Vector{N: s, Data: w, Inc: 1}
+		blas64.Gemv(blas.NoTrans, 1, blk, v, 0, wv)
+		blas64.Ger(-beta[j], wv, v, blk)
+	}
+	return out
+}
+
+// reconstruction returns ‖B̂Π − QR‖_F/‖B̂‖_F, recomputing each unit-normalised
+// input column from the caller's data, in chunks to bound the memory.
+func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q []float64, L int) float64 {
+	rr, k := len(orig), f.k
+	const chunk = 32
+	buf := make([]float64, chunk*L)
+	rc := make([]float64, chunk*k)
+	var ss float64
+	for c0 := 0; c0 < rr; c0 += chunk {
+		c1 := min(c0+chunk, rr)
+		nc := c1 - c0
+		for j := c0; j < c1; j++ {
+			for p := 0; p < k; p++ {
+				rc[(j-c0)*k+p] = f.r[p*rr+j]
+			}
+		}
+		if k > 0 {
+			blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
+				blas64.General{Rows: nc, Cols: k, Stride: k, Data: rc},
+				blas64.General{Rows: k, Cols: L, Stride: L, Data: q},
+				0, blas64.General{Rows: nc, Cols: L, Stride: L, Data: buf})
+		} else {
+			clear(buf)
+		}
+		for j := c0; j < c1; j++ {
+			col := f.perm[j]
+			src := data[orig[col]*L : (orig[col]+1)*L]
+			sc := scale[col]
+			row := buf[(j-c0)*L : (j-c0+1)*L]
+			for i, v := range src {
+				d := v*sc - row[i]
+				ss += d * d
+			}
+		}
+	}
+	return math.Sqrt(ss / float64(rr))
+}
+
+// orthogonality returns the computed ‖SSᵀ − I‖_F and a proven bound η on
+// ‖SSᵀ − I‖₂ for the s stored rows of length L.
+//
+// Derivation: each entry of the float Gram matrix Ĝ = fl(SSᵀ) satisfies
+// |Ĝ_ij − G_ij| ≤ γ_L Σ_ℓ|S_iℓ||S_jℓ| ≤ γ_L‖s_i‖‖s_j‖ (Higham 2002, eq. 3.5,
+// any summation order; Cauchy–Schwarz), and the matrix [‖s_i‖‖s_j‖] has
+// Frobenius norm Σ‖s_i‖² = ‖S‖_F². So ‖G − I‖₂ ≤ ‖Ĝ − I‖_F + γ_L‖S‖_F², each
+// term evaluated with upward rounding (Ĝ_ij − δ_ij is rounded once more, and
+// the squares and sum add s²+1 roundings).
+func orthogonality(q []float64, s, L int) (computed, bound float64) {
+	if s == 0 {
+		return 0, 0
+	}
+	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
+	blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, 0, g)
+	var ss float64
+	for i := 0; i < s; i++ {
+		for j := i; j < s; j++ {
+			v := g.Data[i*s+j]
+			if i == j {
+				v -= 1
+			}
+			if i == j {
+				ss += v * v
+			} else {
+				ss += 2 * v * v
+			}
+		}
+	}
+	computed = math.Sqrt(ss)
+	// |fl(Ĝ_ij − δ_ij)| ≤ (1+u)|Ĝ_ij − δ_ij|: absorbed by counting one more rounding per term.
+	fro := accurate.SqrtUp(accurate.UpperRel(ss, s*s+4))
+	fro = accurate.MulUp(fro, 1+4*accurate.U)
+	sf := accurate.SumSqUpper(q)
+	bound = accurate.AddUp(fro, accurate.MulUp(accurate.Gamma(L), sf))
+	return computed, bound
+}
