@@ -273,3 +273,45 @@ func (w *Subspace) applyGram(dst, z []float64, p int, u, v []float64) {
 	}
 	blas64.Gemv(blas.Trans, 1, zs, blas64.Vector{N: w.s, Data: c, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
 }
+
+// ApplyPartialTrace1 writes Tr₂(P_W)·x into dst (both length m), where
+// Tr₂(P_W) = Σ_t Q_tQ_tᵀ for an orthonormal basis Q_t of W (the flattening
+// matrix on the row side). It costs two passes over the stored basis.
+// It panics on wrong lengths.
+func (w *Subspace) ApplyPartialTrace1(dst, x []float64) {
+	w.checkX(x, "x")
+	w.checkX(dst, "dst")
+	L := w.m * w.n
+	z := make([]float64, w.s*w.n)
+	w.zx(z, x)
+	clear(dst)
+	for t := 0; t < w.s; t++ {
+		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
+		blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: z[t*w.n : (t+1)*w.n], Inc: 1}, 1, blas64.Vector{N: w.m, Data: dst, Inc: 1})
+	}
+	if w.comp {
+		for i := range dst {
+			dst[i] = float64(w.n)*x[i] - dst[i]
+		}
+	}
+}
+
+// ApplyPartialTrace2 writes Tr₁(P_W)·y into dst (both length n), where
+// Tr₁(P_W) = Σ_t Q_tᵀQ_t for an orthonormal basis Q_t of W.
+// It panics on wrong lengths.
+func (w *Subspace) ApplyPartialTrace2(dst, y []float64) {
+	w.checkY(y, "y")
+	w.checkY(dst, "dst")
+	clear(dst)
+	if w.s > 0 {
+		z := make([]float64, w.s*w.m)
+		w.zy(z, y)
+		g := blas64.General{Rows: w.s * w.m, Cols: w.n, Stride: w.n, Data: w.q}
+		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.s * w.m, Data: z, Inc: 1}, 0, blas64.Vector{N: w.n, Data: dst, Inc: 1})
+	}
+	if w.comp {
+		for j := range dst {
+			dst[j] = float64(w.m)*y[j] - dst[j]
+		}
+	}
+}

@@ -1,0 +1,103 @@
+package rankone
+
+import (
+	"context"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/verified"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// FlatteningBound returns a certified upper bound on h* and the matching
+// certified lower bound on d*, from the two flattenings of the basis tensor.
+//
+// Derivation. Let Q_1..Q_k be an orthonormal basis of W. For unit x, y,
+// h(x, y) = Σ_t (xᵀQ_t y)² ≤ Σ_t ‖Q_tᵀx‖²‖y‖² = xᵀ(Σ_t Q_tQ_tᵀ)x
+// ≤ λmax(Σ_t Q_tQ_tᵀ) (Cauchy–Schwarz in each term), and symmetrically
+// h ≤ λmax(Σ_t Q_tᵀQ_t); also h ≤ 1. Σ_t Q_tQ_tᵀ is the partial trace
+// Tr₂(P_W), so the argument holds for any PSD operator below it. The
+// Subspace supplies float matrices T with Tr(P_W) ⪯ T + δI for the stored
+// basis (subspace.PartialTraces, where the rounding and the loss of
+// orthogonality are accounted); λmax(T) is bounded above by the verified
+// Cholesky test (internal/verified), so
+// h* ≤ min(1, λ̄max(T1) + δ1, λ̄max(T2) + δ2) =: hUpper and
+// d* = √(1 − h*) ≥ √(1 − hUpper), evaluated with downward rounding.
+//
+// The bound is exact for one matrix (k = 1: λmax(QQᵀ) = σ₁², Eckart–Young)
+// and useless (hUpper = 1) when W is large.
+func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
+	t1, d1, t2, d2 := w.PartialTraces()
+	hUpper = 1
+	for _, s := range []struct {
+		t *mat.SymDense
+		d float64
+	}{{t1, d1}, {t2, d2}} {
+		x := make([]float64, s.t.SymmetricDim())
+		guess, _ := TopEigen(symApply(s.t), x, 0, 0, 1e-13)
+		ub := accurate.AddUp(verified.MaxEigUpper(s.t, guess), s.d)
+		if ub < hUpper {
+			hUpper = ub
+		}
+	}
+	if hUpper < 0 {
+		hUpper = 0
+	}
+	lower = accurate.SqrtDown(accurate.Down(1 - hUpper))
+	return hUpper, lower
+}
+
+// Flattening is a Searcher that returns the flattening lower bound together
+// with the witness suggested by the flattenings: the top eigenvector of each
+// partial trace, completed by the best vector on the other side. It has no
+// settings; its zero value is ready to use.
+type Flattening struct{}
+
+// Name returns "flattening".
+func (Flattening) Name() string { return "flattening" }
+
+// Search implements Searcher.
+func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, error) {
+	start := time.Now()
+	o := &oracle{w: w}
+	res := Result{FoundBy: f.Name(), Starts: 1}
+	hu, lo := FlatteningBound(w)
+	_ = hu
+	if lo > 0 {
+		res.Lower, res.LowerBy = lo, "flattening"
+	}
+	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
+	spectralStart(o, x, y)
+	res.X, res.Y = x, y
+	res.Value = o.Value(x, y)
+	res.Status = Converged
+	res.Evaluations = o.evals
+	finish(w, &res, start)
+	if st, err := ctxStatus(ctx); err != nil {
+		res.Status = st
+		return res, err
+	}
+	return res, nil
+}
+
+// spectralStart writes a deterministic start point: x is the top eigenvector
+// of Tr₂(P_W) (a few Lanczos steps, matrix-free), y the top eigenvector of
+// H(x) (the best y for that x); the roles swap when n < m.
+func spectralStart(o *oracle, x, y []float64) {
+	var a mat.SymDense
+	if len(x) <= len(y) {
+		clear(x)
+		TopEigen(o.ApplyPartialTrace1, x, 12, 1, 1e-3)
+		o.H(&a, x)
+		clear(y)
+		TopEigen(symApply(&a), y, 0, 0, 1e-12)
+	} else {
+		clear(y)
+		TopEigen(o.ApplyPartialTrace2, y, 12, 1, 1e-3)
+		o.G(&a, y)
+		clear(x)
+		TopEigen(symApply(&a), x, 0, 0, 1e-12)
+	}
+}

@@ -1,0 +1,121 @@
+package rankone
+
+import (
+	"context"
+	"math"
+	"time"
+
+	"github.com/segre-lab/segre/subspace"
+)
+
+// Local is a local method: from a start point it climbs to a nearby
+// stationary point of h. Users' own local methods implement it too and can
+// then be run from many starts by MultiStart.
+type Local interface {
+	// Name identifies the method in results and reports.
+	Name() string
+	// Refine improves the unit vectors x (length m) and y (length n) in
+	// place. On a cancelled context it returns promptly with the best point
+	// so far in x, y, status Cancelled and ctx.Err().
+	Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error)
+}
+
+// Stats reports one run of a Local method.
+type Stats struct {
+	Iterations, Evaluations int
+	Status                  Status
+	Value                   float64 // h at the end point (not certified)
+	Gradient                float64 // norm of the Riemannian gradient of h at the end (not certified)
+}
+
+// searchLocal runs l once from the spectral start, as a Searcher.
+func searchLocal(ctx context.Context, w *subspace.Subspace, l Local) (Result, error) {
+	start := time.Now()
+	o := &oracle{w: w}
+	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
+	spectralStart(o, x, y)
+	st, err := l.Refine(ctx, w, x, y)
+	res := Result{X: x, Y: y, FoundBy: l.Name(), Value: st.Value, Status: st.Status,
+		Iterations: st.Iterations, Evaluations: st.Evaluations + o.evals, Starts: 1}
+	finish(w, &res, start)
+	return res, err
+}
+
+// progressGate calls a progress callback at most every 200 ms.
+type progressGate struct {
+	fn    func(Progress)
+	start time.Time
+	last  time.Time
+}
+
+func newGate(fn func(Progress)) *progressGate {
+	now := time.Now()
+	return &progressGate{fn: fn, start: now, last: now}
+}
+
+func (g *progressGate) report(p Progress) {
+	if g == nil || g.fn == nil {
+		return
+	}
+	now := time.Now()
+	if now.Sub(g.last) < 200*time.Millisecond {
+		return
+	}
+	g.last = now
+	p.Elapsed = now.Sub(g.start)
+	g.fn(p)
+}
+
+// stall tracks the gradient norm to detect a floating-point floor: no 10%
+// improvement of the best gradient norm for `patience` iterations.
+type stall struct {
+	best     float64
+	since    int
+	patience int
+}
+
+func (s *stall) stuck(g float64) bool {
+	if s.best == 0 {
+		s.best = math.Inf(1)
+	}
+	if g < 0.9*s.best {
+		s.best, s.since = g, 0
+		return false
+	}
+	s.since++
+	return s.since >= s.patience
+}
+
+// tangentNorm returns ‖u − (xᵀu)x‖ for unit x.
+func tangentNorm(u, x []float64) float64 {
+	c := dotv(u, x)
+	var s float64
+	for i := range u {
+		d := u[i] - c*x[i]
+		s += d * d
+	}
+	return math.Sqrt(s)
+}
+
+func orDefault(v, d int) int {
+	if v <= 0 {
+		return d
+	}
+	return v
+}
+
+func orDefaultF(v, d float64) float64 {
+	if v <= 0 {
+		return d
+	}
+	return v
+}
+
+// floorStatus is the status of a method that can make no more progress:
+// Converged if it is near a stationary point, LimitReached otherwise.
+func floorStatus(grad float64) Status {
+	if grad <= 1e-6 {
+		return Converged
+	}
+	return LimitReached
+}

@@ -1,0 +1,29 @@
+package rankone
+
+import (
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/subspace"
+)
+
+// oracle wraps a Subspace and counts the contractions a strategy calls, so
+// that no strategy counts by hand. Each call of a method below is one
+// evaluation (about one or two passes over the stored basis).
+type oracle struct {
+	w     *subspace.Subspace
+	evals int
+}
+
+func (o *oracle) G(dst *mat.SymDense, y []float64) { o.evals++; o.w.G(dst, y) }
+func (o *oracle) H(dst *mat.SymDense, x []float64) { o.evals++; o.w.H(dst, x) }
+func (o *oracle) ApplyG(dst, y, x []float64)       { o.evals++; o.w.ApplyG(dst, y, x) }
+func (o *oracle) ApplyH(dst, x, y []float64)       { o.evals++; o.w.ApplyH(dst, x, y) }
+func (o *oracle) Project(dst, a []float64)         { o.evals++; o.w.Project(dst, a) }
+func (o *oracle) Residual(x, y []float64) float64  { o.evals++; return o.w.Residual(x, y) }
+func (o *oracle) Value(x, y []float64) float64     { o.evals++; return o.w.Value(x, y) }
+func (o *oracle) Gradient(gx, gy, x, y, buf []float64) float64 {
+	o.evals++
+	return o.w.Gradient(gx, gy, x, y, buf)
+}
+func (o *oracle) ApplyPartialTrace1(dst, x []float64) { o.evals++; o.w.ApplyPartialTrace1(dst, x) }
+func (o *oracle) ApplyPartialTrace2(dst, y []float64) { o.evals++; o.w.ApplyPartialTrace2(dst, y) }

@@ -1,0 +1,138 @@
+package rankone
+
+import (
+	"context"
+	"fmt"
+	"sync"
+	"time"
+
+	"github.com/segre-lab/segre/subspace"
+)
+
+// Portfolio runs several searchers concurrently under one deadline and
+// merges their bounds: the smallest Upper (with its witness) and the
+// largest Lower. Both are certified by their own searchers, so the merged
+// interval is certified too. Ties go to the earlier member, so the Result
+// is deterministic whenever every member is.
+//
+// The zero value is ready to use.
+type Portfolio struct {
+	// Members are the searchers; nil means DefaultMembers().
+	Members []Searcher
+	// Budget is the time allowed for the whole run; zero means no limit
+	// beyond the context's own deadline.
+	Budget time.Duration
+	// Progress, if set, is called at most every 200 ms with the merged bounds.
+	Progress func(Progress)
+}
+
+var _ Searcher = (*Portfolio)(nil)
+
+// DefaultMembers returns the default portfolio: the flattening bound and
+// multi-start runs of the three local methods.
+func DefaultMembers() []Searcher {
+	return []Searcher{
+		Flattening{},
+		&MultiStart{Method: &TrustRegion{}, Workers: 1},
+		&MultiStart{Method: &ALS{}, Workers: 1},
+		&MultiStart{Method: &Power{}, Workers: 1},
+	}
+}
+
+// Name returns "portfolio".
+func (p *Portfolio) Name() string { return "portfolio" }
+
+// Entry is one member's outcome in a portfolio run.
+type Entry struct {
+	Name   string
+	Result Result
+	Err    error
+}
+
+// NameOf returns s.Name() when s has such a method, else its Go type.
+func NameOf(s any) string {
+	if n, ok := s.(interface{ Name() string }); ok {
+		return n.Name()
+	}
+	return fmt.Sprintf("%T", s)
+}
+
+// Search implements Searcher.
+func (p *Portfolio) Search(ctx context.Context, w *subspace.Subspace) (Result, error) {
+	res, _, err := p.SearchEach(ctx, w)
+	return res, err
+}
+
+// SearchEach is Search that also returns every member's outcome, in member
+// order.
+func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Result, []Entry, error) {
+	begin := time.Now()
+	members := p.Members
+	if members == nil {
+		members = DefaultMembers()
+	}
+	rctx := ctx
+	if p.Budget > 0 {
+		var cancel context.CancelFunc
+		rctx, cancel = context.WithTimeout(ctx, p.Budget)
+		defer cancel()
+	}
+	entries := make([]Entry, len(members))
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	gate := newGate(p.Progress)
+	bestU, bestL := 1.0, 0.0
+	for i, s := range members {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			r, err := s.Search(rctx, w)
+			entries[i] = Entry{Name: NameOf(s), Result: r, Err: err}
+			mu.Lock()
+			if r.Upper < bestU {
+				bestU = r.Upper
+			}
+			if r.Lower > bestL {
+				bestL = r.Lower
+			}
+			gate.report(Progress{Searcher: p.Name(), Upper: bestU, Lower: bestL})
+			mu.Unlock()
+		}()
+	}
+	wg.Wait()
+	res := Result{Upper: 1, Status: Converged}
+	found := false
+	for _, e := range entries {
+		r := e.Result
+		res.Iterations += r.Iterations
+		res.Evaluations += r.Evaluations
+		res.Starts += r.Starts
+		if r.X != nil && (!found || r.Upper < res.Upper) {
+			found = true
+			res.X, res.Y, res.Upper, res.Value = r.X, r.Y, r.Upper, r.Value
+			res.FoundBy = e.Name
+			if r.FoundBy != "" {
+				res.FoundBy = r.FoundBy
+			}
+		}
+		if r.Lower > res.Lower {
+			res.Lower, res.LowerBy = r.Lower, r.LowerBy
+		}
+		if e.Err != nil || !r.Status.Success() {
+			res.Status = LimitReached
+		}
+	}
+	if !found {
+		res.X, res.Y = unitVec(w.Rows()), unitVec(w.Cols())
+		res.Upper, _ = Verify(w, res.X, res.Y)
+	}
+	res.Elapsed = time.Since(begin)
+	if err := ctx.Err(); err != nil {
+		res.Status = Cancelled
+		return res, entries, err
+	}
+	if rctx.Err() != nil {
+		res.Status = LimitReached // the portfolio's own budget ran out
+	}
+	return res, entries, nil
+}
