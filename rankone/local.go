@@ -38,6 +38,9 @@ func searchLocal(ctx context.Context, w *subspace.Subspace, l Local) (Result, er
 	res := Result{X: x, Y: y, FoundBy: l.Name(), Value: st.Value, Status: st.Status,
 		Iterations: st.Iterations, Evaluations: st.Evaluations + o.evals, Starts: 1}
 	finish(w, &res, start)
+	if cerr := ctx.Err(); cerr != nil {
+		res.Status, err = Cancelled, cerr
+	}
 	return res, err
 }
 
