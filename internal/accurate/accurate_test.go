@@ -1,0 +1,131 @@
+package accurate
+
+import (
+	"math"
+	"math/big"
+	"math/rand/v2"
+	"testing"
+)
+
+func exactDot(a, b []float64) *big.Float {
+	s := new(big.Float).SetPrec(4096)
+	for i := range a {
+		p := new(big.Float).SetPrec(4096).SetFloat64(a[i])
+		p.Mul(p, new(big.Float).SetPrec(4096).SetFloat64(b[i]))
+		s.Add(s, p)
+	}
+	return s
+}
+
+// TwoSum and TwoProd are error-free (Ogita, Rump, Oishi 2005, §3): checked
+// against exact big.Float arithmetic (4096-bit, so no rounding at all).
+func TestErrorFreeTransformations(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	for i := 0; i < 2000; i++ {
+		a := rng.NormFloat64() * math.Ldexp(1, rng.IntN(200)-100)
+		b := rng.NormFloat64() * math.Ldexp(1, rng.IntN(200)-100)
+		s, e := TwoSum(a, b)
+		want := new(big.Float).SetPrec(4096).SetFloat64(a)
+		want.Add(want, new(big.Float).SetPrec(4096).SetFloat64(b))
+		got := new(big.Float).SetPrec(4096).SetFloat64(s)
+		got.Add(got, new(big.Float).SetPrec(4096).SetFloat64(e))
+		if got.Cmp(want) != 0 {
+			t.Fatalf("TwoSum(%v, %v) not exact", a, b)
+		}
+		p, f := TwoProd(a, b)
+		want = exactDot([]float64{a}, []float64{b})
+		got = new(big.Float).SetPrec(4096).SetFloat64(p)
+		got.Add(got, new(big.Float).SetPrec(4096).SetFloat64(f))
+		if got.Cmp(want) != 0 {
+			t.Fatalf("TwoProd(%v, %v) not exact", a, b)
+		}
+	}
+}
+
+// illDot returns vectors whose dot product cancels heavily: pairs (a, b),
+// (−a, b) plus small terms, in shuffled order (derived here; the exact value
+// is known through big.Float).
+func illDot(rng *rand.Rand, n int) ([]float64, []float64) {
+	x, y := make([]float64, n), make([]float64, n)
+	for i := 0; i < n; i += 2 {
+		e := rng.IntN(60)
+		x[i] = rng.NormFloat64() * math.Ldexp(1, e)
+		y[i] = rng.NormFloat64()
+		if i+1 < n {
+			x[i+1] = -x[i] * (1 + math.Ldexp(rng.NormFloat64(), -40))
+			y[i+1] = y[i]
+		}
+	}
+	rng.Shuffle(n, func(i, j int) { x[i], x[j] = x[j], x[i]; y[i], y[j] = y[j], y[i] })
+	return x, y
+}
+
+// The bound of Acc.Result holds against the exact dot product (big.Float),
+// on well- and ill-conditioned data (Ogita, Rump, Oishi 2005, Prop. 5.5).
+func TestAccBound(t *testing.T) {
+	rng := rand.New(rand.NewPCG(2, 2))
+	trials := 500
+	if testing.Short() {
+		trials = 100
+	}
+	for i := 0; i < trials; i++ {
+		n := 1 + rng.IntN(300)
+		var x, y []float64
+		if i%2 == 0 {
+			x, y = illDot(rng, n)
+		} else {
+			x, y = make([]float64, n), make([]float64, n)
+			for j := range x {
+				x[j], y[j] = rng.NormFloat64(), rng.NormFloat64()
+			}
+		}
+		var acc Acc
+		for j := range x {
+			acc.AddProd(x[j], y[j])
+		}
+		r, b := acc.Result()
+		ex := exactDot(x, y)
+		diff := new(big.Float).SetPrec(4096).Sub(new(big.Float).SetPrec(4096).SetFloat64(r), ex)
+		diff.Abs(diff)
+		if diff.Cmp(new(big.Float).SetFloat64(b)) > 0 {
+			t.Fatalf("trial %d: |r − exact| = %v > bound %v", i, diff, b)
+		}
+	}
+}
+
+// SumSqUpper/Lower bracket the exact sum of squares (big.Float reference).
+func TestSumSqBounds(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 3))
+	for i := 0; i < 300; i++ {
+		n := 1 + rng.IntN(500)
+		x := make([]float64, n)
+		for j := range x {
+			x[j] = rng.NormFloat64() * math.Ldexp(1, rng.IntN(40)-20)
+		}
+		ex := exactDot(x, x)
+		if ex.Cmp(new(big.Float).SetFloat64(SumSqUpper(x))) > 0 {
+			t.Fatal("SumSqUpper below the exact value")
+		}
+		if ex.Cmp(new(big.Float).SetFloat64(SumSqLower(x))) < 0 {
+			t.Fatal("SumSqLower above the exact value")
+		}
+	}
+	// Subnormal inputs: the squares underflow to zero; the upper bound must
+	// still cover them (derived: each square is below 2^-2148 < Tiny).
+	x := []float64{5e-324, 1e-310, 3e-320}
+	if ex := exactDot(x, x); ex.Cmp(new(big.Float).SetFloat64(SumSqUpper(x))) > 0 {
+		t.Fatal("SumSqUpper below the exact value for subnormals")
+	}
+}
+
+func TestGamma(t *testing.T) {
+	// γ_n = nu/(1−nu) (Higham 2002, Lemma 3.1), checked in big.Float.
+	for _, n := range []int{1, 2, 10, 1000, 1 << 20} {
+		nu := new(big.Float).SetPrec(200).SetFloat64(float64(n) * U)
+		den := new(big.Float).SetPrec(200).Sub(big.NewFloat(1), nu)
+		g := new(big.Float).SetPrec(200).Quo(nu, den)
+		if g.Cmp(new(big.Float).SetFloat64(Gamma(n))) > 0 {
+			t.Fatalf("Gamma(%d) below γ_n", n)
+		}
+	}
+}

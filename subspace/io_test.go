@@ -1,0 +1,272 @@
+package subspace
+
+import (
+	"bytes"
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func sameBasis(a, b Basis) bool {
+	if a.Count != b.Count || a.Rows != b.Rows || a.Cols != b.Cols || len(a.Data) != len(b.Data) {
+		return false
+	}
+	for i := range a.Data {
+		if math.Float64bits(a.Data[i]) != math.Float64bits(b.Data[i]) {
+			return false
+		}
+	}
+	return true
+}
+
+func TestRoundTrips(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	b := randBasis(rng, 3, 2, 5)
+	b.Data[0] = 1e-300
+	b.Data[1] = -0.1
+	var buf bytes.Buffer
+	if err := WriteNPY(&buf, b); err != nil {
+		t.Fatal(err)
+	}
+	if buf.Len()%64 != (3*2*5*8)%64 {
+		t.Errorf("npy header not padded to a multiple of 64 bytes")
+	}
+	got, err := ReadNPY(bytes.NewReader(buf.Bytes()), 0)
+	if err != nil || !sameBasis(b, got) {
+		t.Fatalf("npy round trip: %v", err)
+	}
+	buf.Reset()
+	if err := WriteText(&buf, b); err != nil {
+		t.Fatal(err)
+	}
+	got, err = ReadText(bytes.NewReader(buf.Bytes()), 0)
+	if err != nil || !sameBasis(b, got) {
+		t.Fatalf("text round trip (shortest round-trip decimals must be exact): %v", err)
+	}
+	// ReadFile on both formats, and the file is left untouched.
+	dir := t.TempDir()
+	for _, name := range []string{"a.npy", "a.txt"} {
+		p := filepath.Join(dir, name)
+		var fb bytes.Buffer
+		if strings.HasSuffix(name, ".npy") {
+			WriteNPY(&fb, b)
+		} else {
+			WriteText(&fb, b)
+		}
+		os.WriteFile(p, fb.Bytes(), 0o644)
+		got, err := ReadFile(p, 0)
+		if err != nil || !sameBasis(b, got) {
+			t.Fatalf("ReadFile(%s): %v", name, err)
+		}
+		after, _ := os.ReadFile(p)
+		if !bytes.Equal(after, fb.Bytes()) {
+			t.Fatalf("ReadFile changed %s", name)
+		}
+	}
+}
+
+// npyBytes builds an .npy file by hand (format described in NumPy's NEP 1).
+func npyBytes(version byte, descr string, fortran bool, shape string, data []byte) []byte {
+	fo := "False"
+	if fortran {
+		fo = "True"
+	}
+	h := fmt.Sprintf("{'descr': '%s', 'fortran_order': %s, 'shape': %s, }", descr, fo, shape)
+	h += strings.Repeat(" ", 63-(len(h)+12)%64) + "\n"
+	var b bytes.Buffer
+	b.Write(npyMagic)
+	b.Write([]byte{version, 0})
+	if version == 1 {
+		binary.Write(&b, binary.LittleEndian, uint16(len(h)))
+	} else {
+		binary.Write(&b, binary.LittleEndian, uint32(len(h)))
+	}
+	b.WriteString(h)
+	b.Write(data)
+	return b.Bytes()
+}
+
+func TestNPYVariants(t *testing.T) {
+	// 2 matrices of 2×3 with entries t*100 + i*10 + j (derived layout).
+	want := Basis{Count: 2, Rows: 2, Cols: 3}
+	for tt := 0; tt < 2; tt++ {
+		for i := 0; i < 2; i++ {
+			for j := 0; j < 3; j++ {
+				want.Data = append(want.Data, float64(tt*100+i*10+j))
+			}
+		}
+	}
+	enc := func(order binary.ByteOrder, size int, kind byte, fortran bool) []byte {
+		var b bytes.Buffer
+		at := func(tt, i, j int) float64 { return want.Data[(tt*2+i)*3+j] }
+		var idx [][3]int
+		if fortran {
+			for j := 0; j < 3; j++ {
+				for i := 0; i < 2; i++ {
+					for tt := 0; tt < 2; tt++ {
+						idx = append(idx, [3]int{tt, i, j})
+					}
+				}
+			}
+		} else {
+			for tt := 0; tt < 2; tt++ {
+				for i := 0; i < 2; i++ {
+					for j := 0; j < 3; j++ {
+						idx = append(idx, [3]int{tt, i, j})
+					}
+				}
+			}
+		}
+		for _, e := range idx {
+			v := at(e[0], e[1], e[2])
+			switch {
+			case kind == 'f' && size == 8:
+				binary.Write(&b, order, v)
+			case kind == 'f' && size == 4:
+				binary.Write(&b, order, float32(v))
+			case kind == 'i' && size == 2:
+				binary.Write(&b, order, int16(v))
+			case kind == 'u' && size == 1:
+				b.WriteByte(byte(v))
+			case kind == 'i' && size == 8:
+				binary.Write(&b, order, int64(v))
+			}
+		}
+		return b.Bytes()
+	}
+	cases := []struct {
+		name    string
+		descr   string
+		order   binary.ByteOrder
+		size    int
+		kind    byte
+		fortran bool
+		version byte
+	}{
+		{"f8-little-C", "<f8", binary.LittleEndian, 8, 'f', false, 1},
+		{"f8-big-C", ">f8", binary.BigEndian, 8, 'f', false, 1},
+		{"f8-little-Fortran", "<f8", binary.LittleEndian, 8, 'f', true, 1},
+		{"f8-big-Fortran-v2", ">f8", binary.BigEndian, 8, 'f', true, 2},
+		{"f4", "<f4", binary.LittleEndian, 4, 'f', false, 1},
+		{"i2-big", ">i2", binary.BigEndian, 2, 'i', false, 3},
+		{"u1", "|u1", binary.LittleEndian, 1, 'u', false, 1},
+		{"i8", "<i8", binary.LittleEndian, 8, 'i', false, 1},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			f := npyBytes(c.version, c.descr, c.fortran, "(2, 2, 3)", enc(c.order, c.size, c.kind, c.fortran))
+			got, err := ReadNPY(bytes.NewReader(f), 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !sameBasis(want, got) {
+				t.Fatalf("got %v, want %v", got.Data, want.Data)
+			}
+		})
+	}
+	// A 2-D array is one matrix.
+	two := npyBytes(1, "<f8", false, "(2, 3)", enc(binary.LittleEndian, 8, 'f', false)[:48])
+	got, err := ReadNPY(bytes.NewReader(two), 0)
+	if err != nil || got.Count != 1 || got.Rows != 2 || got.Cols != 3 {
+		t.Fatalf("2-D array: %+v, %v", got, err)
+	}
+}
+
+func TestBadFiles(t *testing.T) {
+	good := npyBytes(1, "<f8", false, "(1, 2, 2)", make([]byte, 32))
+	cases := []struct {
+		name string
+		data []byte
+		npy  bool
+		want error
+	}{
+		{"npy-empty", nil, true, ErrFormat},
+		{"npy-bad-magic", []byte("\x93NUMPX\x01\x00\x10\x00{}"), true, ErrFormat},
+		{"npy-truncated-header", good[:20], true, ErrFormat},
+		{"npy-truncated-data", good[:len(good)-3], true, ErrFormat},
+		{"npy-trailing", append(append([]byte(nil), good...), 1), true, ErrFormat},
+		{"npy-complex", npyBytes(1, "<c16", false, "(1, 2, 2)", make([]byte, 64)), true, ErrFormat},
+		{"npy-bool", npyBytes(1, "|b1", false, "(1, 2, 2)", make([]byte, 4)), true, ErrFormat},
+		{"npy-object", npyBytes(1, "|O", false, "(1, 2, 2)", make([]byte, 32)), true, ErrFormat},
+		{"npy-4d", npyBytes(1, "<f8", false, "(1, 1, 2, 2)", make([]byte, 32)), true, ErrFormat},
+		{"npy-zero-size", npyBytes(1, "<f8", false, "(0, 2, 2)", nil), true, ErrFormat},
+		{"npy-huge", npyBytes(1, "<f8", false, "(100000, 100000, 100000)", nil), true, ErrTooLarge},
+		{"npy-version", []byte("\x93NUMPY\x09\x00\x10\x00"), true, ErrFormat},
+		{"npy-no-shape", npyBytes(1, "<f8", false, "", nil), true, ErrFormat},
+		{"npy-int-inexact", npyBytes(1, "<i8", false, "(1, 1, 1)", []byte{1, 0, 0, 0, 0, 0, 0x40, 0}), true, ErrFormat},
+		{"text-empty", []byte("# only a comment\n"), false, ErrFormat},
+		{"text-bad-header", []byte("2 x 3\n"), false, ErrFormat},
+		{"text-truncated", []byte("1 2 2\n1 2 3\n"), false, ErrFormat},
+		{"text-extra", []byte("1 1 2\n1 2 3\n"), false, ErrFormat},
+		{"text-word", []byte("1 1 2\n1 two\n"), false, ErrFormat},
+		{"text-zero-dim", []byte("1 0 2\n"), false, ErrFormat},
+		{"text-negative", []byte("-1 2 2\n"), false, ErrFormat},
+		{"text-huge", []byte("1000000 100000 100000\n"), false, ErrTooLarge},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			var err error
+			if c.npy {
+				_, err = ReadNPY(bytes.NewReader(c.data), 0)
+			} else {
+				_, err = ReadText(bytes.NewReader(c.data), 0)
+			}
+			if !errors.Is(err, c.want) {
+				t.Fatalf("error %v, want %v", err, c.want)
+			}
+		})
+	}
+	// Line numbers in text errors.
+	_, err := ReadText(strings.NewReader("# c\n1 1 2\n\n1 oops\n"), 0)
+	if err == nil || !strings.Contains(err.Error(), "line 4") {
+		t.Errorf("text error %v should name line 4", err)
+	}
+	// A missing file is reported by the OS error.
+	if _, err := ReadFile(filepath.Join(t.TempDir(), "none.npy"), 0); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("missing file: %v", err)
+	}
+}
+
+func TestNewBadInput(t *testing.T) {
+	ok := Basis{Count: 1, Rows: 2, Cols: 2, Data: []float64{1, 0, 0, 1}}
+	cases := []struct {
+		name string
+		b    Basis
+		opt  Options
+		want error
+	}{
+		{"no-matrices", Basis{Count: 0, Rows: 2, Cols: 2}, Options{}, ErrEmpty},
+		{"zero-rows", Basis{Count: 1, Rows: 0, Cols: 2}, Options{}, ErrShape},
+		{"short-data", Basis{Count: 2, Rows: 2, Cols: 2, Data: []float64{1, 2, 3}}, Options{}, ErrShape},
+		{"nan", Basis{Count: 1, Rows: 1, Cols: 2, Data: []float64{1, math.NaN()}}, Options{}, ErrNotFinite},
+		{"inf", Basis{Count: 1, Rows: 1, Cols: 2, Data: []float64{math.Inf(-1), 1}}, Options{}, ErrNotFinite},
+		{"all-zero", Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{0, 0, 0, 0}}, Options{}, ErrZero},
+		{"too-large", ok, Options{MaxBytes: 16}, ErrTooLarge},
+		{"overflow", Basis{Count: math.MaxInt / 2, Rows: 4, Cols: 4}, Options{}, ErrTooLarge},
+		{"bad-tol", ok, Options{Tol: -1}, ErrOption},
+		{"nan-tol", ok, Options{Tol: math.NaN()}, ErrOption},
+		{"bad-maxbytes", ok, Options{MaxBytes: -1}, ErrOption},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if _, err := New(c.b, c.opt); !errors.Is(err, c.want) {
+				t.Fatalf("error %v, want %v", err, c.want)
+			}
+		})
+	}
+	_, err := New(Basis{Count: 2, Rows: 2, Cols: 2, Data: []float64{1, 2, 3, 4, 5, 6, math.NaN(), 8}}, Options{})
+	if err == nil || !strings.Contains(err.Error(), "matrix 1, entry (1, 0)") {
+		t.Errorf("NaN location not named: %v", err)
+	}
+	// Huge and tiny magnitudes are fine (each matrix is scaled to unit norm).
+	w, err := New(Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{1e300, 1e300, 1e-300, 0}}, Options{})
+	if err != nil || w.Dim() != 2 {
+		t.Fatalf("extreme magnitudes: %v", err)
+	}
+}
