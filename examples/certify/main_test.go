@@ -1,0 +1,107 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/segre-lab/segre/subspace"
+)
+
+func runCmd(args ...string) (int, string, string) {
+	var out, errb bytes.Buffer
+	code := run(args, &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+func TestDemoJSON(t *testing.T) {
+	code, out, errs := runCmd("-json", "-time", "500ms", "-starts", "4")
+	if code != 0 {
+		t.Fatalf("exit %d, stderr %q", code, errs)
+	}
+	if errs != "" {
+		t.Errorf("-json should be quiet on stderr, got %q", errs)
+	}
+	var v map[string]any
+	if err := json.Unmarshal([]byte(out), &v); err != nil {
+		t.Fatalf("not one JSON object: %v", err)
+	}
+	for _, k := range []string{"rows", "cols", "dim", "lower", "upper", "x", "y", "status", "searchers"} {
+		if _, ok := v[k]; !ok {
+			t.Errorf("missing key %q", k)
+		}
+	}
+	if v["rows"].(float64) != 5 || v["cols"].(float64) != 7 {
+		t.Errorf("demo shape %v×%v, want 5×7", v["rows"], v["cols"])
+	}
+	lo, up := v["lower"].(float64), v["upper"].(float64)
+	if !(lo >= 0 && lo <= up && up <= 1) {
+		t.Errorf("interval [%v, %v] malformed", lo, up)
+	}
+	for _, s := range v["searchers"].([]any) {
+		e := s.(map[string]any)
+		for _, k := range []string{"name", "lower", "upper", "seconds"} {
+			if _, ok := e[k]; !ok {
+				t.Errorf("searcher entry missing %q", k)
+			}
+		}
+	}
+}
+
+func TestFileAndText(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "b.txt")
+	// The antisymmetric 3×3 subspace: d* = √(1/2) (derived in suite.Antisymmetric).
+	txt := "# antisymmetric 3x3\n3 3 3\n0 1 0 -1 0 0 0 0 0\n0 0 1 0 0 0 -1 0 0\n0 0 0 0 0 1 0 -1 0\n"
+	os.WriteFile(p, []byte(txt), 0o644)
+	code, out, errs := runCmd("-time", "500ms", "-starts", "2", "-quiet", p)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if !strings.Contains(out, "numerical dimension 3") || !strings.Contains(out, "0.7071067") {
+		t.Errorf("unexpected summary:\n%s", out)
+	}
+	np := filepath.Join(dir, "b.npy")
+	f, _ := os.Create(np)
+	subspace.WriteNPY(f, subspace.Basis{Count: 1, Rows: 2, Cols: 2, Data: []float64{1, 0, 0, 1}})
+	f.Close()
+	// One matrix I/√2: d* = √(1 − 1/2) by Eckart–Young.
+	if code, out, _ := runCmd("-json", "-time", "300ms", "-starts", "2", np); code != 0 || !strings.Contains(out, "\"dim\": 1") {
+		t.Errorf("npy run: exit %d, %s", code, out)
+	}
+}
+
+func TestBadInputExitTwo(t *testing.T) {
+	dir := t.TempDir()
+	bad := filepath.Join(dir, "bad.txt")
+	os.WriteFile(bad, []byte("2 2 2\n1 2 3\n"), 0o644)
+	nan := filepath.Join(dir, "nan.txt")
+	os.WriteFile(nan, []byte("1 1 2\nNaN 1\n"), 0o644)
+	cases := [][]string{
+		{"-nosuchflag"},
+		{"-time", "-1s"},
+		{"-starts", "0"},
+		{"-tol", "2"},
+		{"-maxbytes", "-5"},
+		{"a", "b"},
+		{filepath.Join(dir, "missing.npy")},
+		{bad},
+		{nan},
+		{dir},
+	}
+	for _, args := range cases {
+		code, out, errs := runCmd(args...)
+		if code != 2 {
+			t.Errorf("%v: exit %d, want 2", args, code)
+		}
+		if out != "" {
+			t.Errorf("%v: stdout %q, want nothing", args, out)
+		}
+		if strings.Count(strings.TrimSpace(errs), "\n") != 0 || !strings.HasPrefix(errs, "certify: ") {
+			t.Errorf("%v: stderr %q, want one line", args, errs)
+		}
+	}
+}
