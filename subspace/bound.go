@@ -68,7 +68,7 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 			f := accurate.AddUp(math.Abs(r), b)
 			ss += f * f
 		}
-		ss = accurate.UpperRel(ss, 2*w.s+2)
+		ss = accurate.UpperRel(ss, w.s+1)
 		inv := accurate.Up(1 / accurate.Down(1-w.eta))
 		return accurate.SqrtUp(accurate.MulUp(ss, inv))
 	}
@@ -107,7 +107,7 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 		f := accurate.AddUp(math.Abs(r), b)
 		ss += f * f
 	}
-	return accurate.SqrtUp(accurate.UpperRel(ss, 2*L+2))
+	return accurate.SqrtUp(accurate.UpperRel(ss, L+1)) // L squares and L−1 additions: within γ_{L+1}
 }
 
 // partialTraces caches the flattening matrices and their bounds.
