@@ -4,8 +4,6 @@ import (
 	"context"
 	"math"
 
-	"gonum.org/v1/gonum/mat"
-
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -16,8 +14,8 @@ import (
 // (monotone block-coordinate ascent; for the injective norm of a tensor this
 // is the alternating scheme of De Lathauwer, De Moor, Vandewalle, SIAM J.
 // Matrix Anal. Appl. 21, 2000, with exact block maximisation). The top
-// eigenvectors come from warm-started Lanczos (TopEigen), never from a full
-// decomposition.
+// eigenvectors come from warm-started Lanczos (TopEigen) on the factored
+// operators (subspace.GOperator), never from a full decomposition.
 //
 // The zero value is ready to use.
 type ALS struct {
@@ -47,7 +45,6 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 	maxIter := orDefault(a.MaxIter, 500)
 	tol := orDefaultF(a.Tol, 1e-12)
 	gate := newGate(a.Progress)
-	var gm, hm mat.SymDense
 	gx, hy := make([]float64, len(x)), make([]float64, len(y))
 	st := Stats{Status: LimitReached}
 	sl := stall{patience: 20}
@@ -60,14 +57,14 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 			return st, err
 		}
 		st.Iterations = it + 1
-		o.H(&hm, x)
-		symApply(&hm)(hy, y)
+		hop := o.HOperator(x)
+		hop.Apply(hy, y)
 		ggy := 2 * tangentNorm(hy, y)
-		TopEigen(symApply(&hm), y, 0, 0, 1e-14)
-		o.G(&gm, y)
-		symApply(&gm)(gx, x)
+		TopEigen(hop.Apply, y, 0, 0, 1e-14)
+		gop := o.GOperator(y)
+		gop.Apply(gx, x)
 		ggx := 2 * tangentNorm(gx, x)
-		h, _ = TopEigen(symApply(&gm), x, 0, 0, 1e-14)
+		h, _ = TopEigen(gop.Apply, x, 0, 0, 1e-14)
 		g := math.Hypot(ggx, ggy)
 		st.Gradient = g
 		gate.report(Progress{Searcher: a.Name(), Iteration: it + 1, Value: h, Upper: 1})

@@ -86,18 +86,15 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 // of Tr₂(P_W) (a few Lanczos steps, matrix-free), y the top eigenvector of
 // H(x) (the best y for that x); the roles swap when n < m.
 func spectralStart(o *oracle, x, y []float64) {
-	var a mat.SymDense
 	if len(x) <= len(y) {
 		clear(x)
 		TopEigen(o.ApplyPartialTrace1, x, 12, 1, 1e-3)
-		o.H(&a, x)
 		clear(y)
-		TopEigen(symApply(&a), y, 0, 0, 1e-12)
+		TopEigen(o.HOperator(x).Apply, y, 0, 0, 1e-12)
 	} else {
 		clear(y)
 		TopEigen(o.ApplyPartialTrace2, y, 12, 1, 1e-3)
-		o.G(&a, y)
 		clear(x)
-		TopEigen(symApply(&a), x, 0, 0, 1e-12)
+		TopEigen(o.GOperator(y).Apply, x, 0, 0, 1e-12)
 	}
 }

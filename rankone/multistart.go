@@ -201,7 +201,6 @@ func (ms *MultiStart) startPoint(o *oracle, i int, x, y []float64) {
 	}
 	rng := rand.New(rand.NewPCG(ms.Seed, uint64(i)))
 	m, n := len(x), len(y)
-	var a mat.SymDense
 	if i%2 == 1 {
 		g := make([]float64, m*n)
 		for k := range g {
@@ -215,9 +214,8 @@ func (ms *MultiStart) startPoint(o *oracle, i int, x, y []float64) {
 		x[k] = rng.NormFloat64()
 	}
 	scale(x, 1/norm(x))
-	o.H(&a, x)
 	clear(y)
-	TopEigen(symApply(&a), y, 0, 0, 1e-12)
+	TopEigen(o.HOperator(x).Apply, y, 0, 0, 1e-12)
 }
 
 // topSingularPair writes approximate top singular vectors of the m×n matrix

@@ -16,11 +16,19 @@ type oracle struct {
 
 func (o *oracle) G(dst *mat.SymDense, y []float64) { o.evals++; o.w.G(dst, y) }
 func (o *oracle) H(dst *mat.SymDense, x []float64) { o.evals++; o.w.H(dst, x) }
-func (o *oracle) ApplyG(dst, y, x []float64)       { o.evals++; o.w.ApplyG(dst, y, x) }
-func (o *oracle) ApplyH(dst, x, y []float64)       { o.evals++; o.w.ApplyH(dst, x, y) }
-func (o *oracle) Project(dst, a []float64)         { o.evals++; o.w.Project(dst, a) }
-func (o *oracle) Residual(x, y []float64) float64  { o.evals++; return o.w.Residual(x, y) }
-func (o *oracle) Value(x, y []float64) float64     { o.evals++; return o.w.Value(x, y) }
+func (o *oracle) GOperator(y []float64) *subspace.Operator {
+	o.evals++
+	return o.w.GOperator(y)
+}
+func (o *oracle) HOperator(x []float64) *subspace.Operator {
+	o.evals++
+	return o.w.HOperator(x)
+}
+func (o *oracle) ApplyG(dst, y, x []float64)      { o.evals++; o.w.ApplyG(dst, y, x) }
+func (o *oracle) ApplyH(dst, x, y []float64)      { o.evals++; o.w.ApplyH(dst, x, y) }
+func (o *oracle) Project(dst, a []float64)        { o.evals++; o.w.Project(dst, a) }
+func (o *oracle) Residual(x, y []float64) float64 { o.evals++; return o.w.Residual(x, y) }
+func (o *oracle) Value(x, y []float64) float64    { o.evals++; return o.w.Value(x, y) }
 func (o *oracle) Gradient(gx, gy, x, y, buf []float64) float64 {
 	o.evals++
 	return o.w.Gradient(gx, gy, x, y, buf)

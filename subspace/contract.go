@@ -174,9 +174,95 @@ func (w *Subspace) zx(z, x []float64) {
 	}
 }
 
-// gram sets dst = ZᵀZ for Z (s×p), or ‖v‖²I − ZᵀZ when the complement is
-// stored, with p the order of dst.
-func (w *Subspace) gram(dst *mat.SymDense, z []float64, p int, v []float64) {
+// G writes the m×m matrix G(y) = (I⊗y)ᵀ P_W (I⊗y) into dst, so that
+// xᵀG(y)x = ‖P_W(x⊗y)‖². An empty dst is resized. Forming G costs one pass
+// over the basis plus an s·m² Gram product; GOperator avoids the latter.
+// It panics if len(y) ≠ n or dst is not empty and not m×m.
+func (w *Subspace) G(dst *mat.SymDense, y []float64) {
+	w.checkY(y, "y")
+	w.gramInto(dst, w.GOperator(y))
+}
+
+// H writes the n×n matrix H(x) = (x⊗I)ᵀ P_W (x⊗I) into dst, so that
+// yᵀH(x)y = ‖P_W(x⊗y)‖². An empty dst is resized.
+// It panics if len(x) ≠ m or dst is not empty and not n×n.
+func (w *Subspace) H(dst *mat.SymDense, x []float64) {
+	w.checkX(x, "x")
+	w.gramInto(dst, w.HOperator(x))
+}
+
+// Operator is the symmetric positive semidefinite map G(y) or H(x) of a
+// Subspace, held in factored form: building it costs one pass over the
+// stored basis, and each Apply costs O(s·p) for order p, far less than
+// forming the p×p matrix when p is large. It is immutable and safe for
+// concurrent use.
+type Operator struct {
+	zt    []float64 // p×s: column t is Q_t y (or Q_tᵀ x)
+	s, p  int
+	comp  bool
+	shift float64 // ‖y‖² (or ‖x‖²), used when the complement is stored
+}
+
+// Order returns p, the order of the operator.
+func (op *Operator) Order() int { return op.p }
+
+// Apply sets dst = A·src. It panics on wrong lengths.
+func (op *Operator) Apply(dst, src []float64) {
+	if len(dst) != op.p || len(src) != op.p {
+		panic("subspace: Operator.Apply needs vectors of length " + itoa(op.p))
+	}
+	if op.s == 0 {
+		if op.comp {
+			for i := range dst {
+				dst[i] = op.shift * src[i]
+			}
+		} else {
+			clear(dst)
+		}
+		return
+	}
+	g := blas64.General{Rows: op.p, Cols: op.s, Stride: op.s, Data: op.zt}
+	c := make([]float64, op.s)
+	blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: op.p, Data: src, Inc: 1}, 0, blas64.Vector{N: op.s, Data: c, Inc: 1})
+	if op.comp {
+		for i := range dst {
+			dst[i] = op.shift * src[i]
+		}
+		blas64.Gemv(blas.NoTrans, -1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 1, blas64.Vector{N: op.p, Data: dst, Inc: 1})
+		return
+	}
+	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 0, blas64.Vector{N: op.p, Data: dst, Inc: 1})
+}
+
+// GOperator returns G(y) (order m) in factored form.
+// It panics if len(y) ≠ n.
+func (w *Subspace) GOperator(y []float64) *Operator {
+	w.checkY(y, "y")
+	op := &Operator{zt: make([]float64, w.m*w.s), s: w.s, p: w.m, comp: w.comp, shift: dot(y, y)}
+	L := w.m * w.n
+	for t := 0; t < w.s; t++ {
+		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
+		blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: op.zt[t:], Inc: w.s})
+	}
+	return op
+}
+
+// HOperator returns H(x) (order n) in factored form.
+// It panics if len(x) ≠ m.
+func (w *Subspace) HOperator(x []float64) *Operator {
+	w.checkX(x, "x")
+	op := &Operator{zt: make([]float64, w.n*w.s), s: w.s, p: w.n, comp: w.comp, shift: dot(x, x)}
+	L := w.m * w.n
+	for t := 0; t < w.s; t++ {
+		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
+		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: op.zt[t:], Inc: w.s})
+	}
+	return op
+}
+
+// gramInto writes the operator's matrix into dst.
+func (w *Subspace) gramInto(dst *mat.SymDense, op *Operator) {
+	p := op.p
 	if dst.IsEmpty() {
 		dst.ReuseAsSym(p)
 	}
@@ -187,8 +273,8 @@ func (w *Subspace) gram(dst *mat.SymDense, z []float64, p int, v []float64) {
 	if raw.Uplo != blas.Upper {
 		panic("subspace: partial matrix must be stored upper")
 	}
-	if w.s > 0 {
-		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s, Cols: p, Stride: p, Data: z}, 0, raw)
+	if op.s > 0 {
+		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: p, Cols: op.s, Stride: op.s, Data: op.zt}, 0, raw)
 	} else {
 		for i := 0; i < p; i++ {
 			for j := i; j < p; j++ {
@@ -196,82 +282,30 @@ func (w *Subspace) gram(dst *mat.SymDense, z []float64, p int, v []float64) {
 			}
 		}
 	}
-	if w.comp {
-		vv := dot(v, v)
+	if op.comp {
 		for i := 0; i < p; i++ {
 			for j := i; j < p; j++ {
 				raw.Data[i*raw.Stride+j] = -raw.Data[i*raw.Stride+j]
 			}
-			raw.Data[i*raw.Stride+i] += vv
+			raw.Data[i*raw.Stride+i] += op.shift
 		}
 	}
-}
-
-// G writes the m×m matrix G(y) = (I⊗y)ᵀ P_W (I⊗y) into dst, so that
-// xᵀG(y)x = ‖P_W(x⊗y)‖². An empty dst is resized.
-// It panics if len(y) ≠ n or dst is not empty and not m×m.
-func (w *Subspace) G(dst *mat.SymDense, y []float64) {
-	w.checkY(y, "y")
-	z := make([]float64, w.s*w.m)
-	w.zy(z, y)
-	w.gram(dst, z, w.m, y)
-}
-
-// H writes the n×n matrix H(x) = (x⊗I)ᵀ P_W (x⊗I) into dst, so that
-// yᵀH(x)y = ‖P_W(x⊗y)‖². An empty dst is resized.
-// It panics if len(x) ≠ m or dst is not empty and not n×n.
-func (w *Subspace) H(dst *mat.SymDense, x []float64) {
-	w.checkX(x, "x")
-	z := make([]float64, w.s*w.n)
-	w.zx(z, x)
-	w.gram(dst, z, w.n, x)
 }
 
 // ApplyG writes G(y)·x into dst (length m) without forming G(y).
 // It panics on wrong lengths.
 func (w *Subspace) ApplyG(dst, y, x []float64) {
-	w.checkY(y, "y")
 	w.checkX(x, "x")
 	w.checkX(dst, "dst")
-	z := make([]float64, w.s*w.m)
-	w.zy(z, y)
-	w.applyGram(dst, z, w.m, x, y)
+	w.GOperator(y).Apply(dst, x)
 }
 
 // ApplyH writes H(x)·y into dst (length n) without forming H(x).
 // It panics on wrong lengths.
 func (w *Subspace) ApplyH(dst, x, y []float64) {
-	w.checkX(x, "x")
 	w.checkY(y, "y")
 	w.checkY(dst, "dst")
-	z := make([]float64, w.s*w.n)
-	w.zx(z, x)
-	w.applyGram(dst, z, w.n, y, x)
-}
-
-// applyGram sets dst = ZᵀZ u (or ‖v‖²u − ZᵀZu for the complement).
-func (w *Subspace) applyGram(dst, z []float64, p int, u, v []float64) {
-	var zs blas64.General
-	c := make([]float64, w.s)
-	if w.s > 0 {
-		zs = blas64.General{Rows: w.s, Cols: p, Stride: p, Data: z}
-		blas64.Gemv(blas.NoTrans, 1, zs, blas64.Vector{N: p, Data: u, Inc: 1}, 0, blas64.Vector{N: w.s, Data: c, Inc: 1})
-	}
-	if w.comp {
-		vv := dot(v, v)
-		for i := range dst {
-			dst[i] = vv * u[i]
-		}
-		if w.s > 0 {
-			blas64.Gemv(blas.Trans, -1, zs, blas64.Vector{N: w.s, Data: c, Inc: 1}, 1, blas64.Vector{N: p, Data: dst, Inc: 1})
-		}
-		return
-	}
-	if w.s == 0 {
-		clear(dst)
-		return
-	}
-	blas64.Gemv(blas.Trans, 1, zs, blas64.Vector{N: w.s, Data: c, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
+	w.HOperator(x).Apply(dst, y)
 }
 
 // ApplyPartialTrace1 writes Tr₂(P_W)·x into dst (both length m), where
