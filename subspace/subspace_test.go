@@ -244,3 +244,31 @@ func TestDependentAndZeroInputs(t *testing.T) {
 		}
 	}
 }
+
+// A Subspace is safe for concurrent use: many goroutines call every
+// contraction (and the lazily computed partial traces) at once and get the
+// same answers as a serial run (run under -race in CI).
+func TestConcurrentUse(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	w, err := New(randBasis(rng, 5, 4, 6), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	x, y := randUnit(rng, 4), randUnit(rng, 6)
+	want := w.Value(x, y)
+	done := make(chan float64)
+	for g := 0; g < 8; g++ {
+		go func() {
+			var s mat.SymDense
+			w.G(&s, y)
+			w.PartialTraces()
+			w.ResidualBound(x, y)
+			done <- w.Value(x, y)
+		}()
+	}
+	for g := 0; g < 8; g++ {
+		if v := <-done; v != want {
+			t.Errorf("concurrent Value %v, serial %v", v, want)
+		}
+	}
+}
