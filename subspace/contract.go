@@ -197,7 +197,7 @@ func (w *Subspace) H(dst *mat.SymDense, x []float64) {
 // forming the p×p matrix when p is large. It is immutable and safe for
 // concurrent use.
 type Operator struct {
-	zt    []float64 // p×s: column t is Q_t y (or Q_tᵀ x)
+	z     []float64 // s×p: row t is Q_t y (or Q_tᵀ x)
 	s, p  int
 	comp  bool
 	shift float64 // ‖y‖² (or ‖x‖²), used when the complement is stored
@@ -221,29 +221,26 @@ func (op *Operator) Apply(dst, src []float64) {
 		}
 		return
 	}
-	g := blas64.General{Rows: op.p, Cols: op.s, Stride: op.s, Data: op.zt}
+	g := blas64.General{Rows: op.s, Cols: op.p, Stride: op.p, Data: op.z}
 	c := make([]float64, op.s)
-	blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: op.p, Data: src, Inc: 1}, 0, blas64.Vector{N: op.s, Data: c, Inc: 1})
+	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: op.p, Data: src, Inc: 1}, 0, blas64.Vector{N: op.s, Data: c, Inc: 1})
 	if op.comp {
 		for i := range dst {
 			dst[i] = op.shift * src[i]
 		}
-		blas64.Gemv(blas.NoTrans, -1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 1, blas64.Vector{N: op.p, Data: dst, Inc: 1})
+		blas64.Gemv(blas.Trans, -1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 1, blas64.Vector{N: op.p, Data: dst, Inc: 1})
 		return
 	}
-	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 0, blas64.Vector{N: op.p, Data: dst, Inc: 1})
+	blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 0, blas64.Vector{N: op.p, Data: dst, Inc: 1})
 }
 
-// GOperator returns G(y) (order m) in factored form.
+// GOperator returns G(y) (order m) in factored form: one Gemv over the
+// stored basis viewed as an (s·m)×n matrix.
 // It panics if len(y) ≠ n.
 func (w *Subspace) GOperator(y []float64) *Operator {
 	w.checkY(y, "y")
-	op := &Operator{zt: make([]float64, w.m*w.s), s: w.s, p: w.m, comp: w.comp, shift: dot(y, y)}
-	L := w.m * w.n
-	for t := 0; t < w.s; t++ {
-		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
-		blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: op.zt[t:], Inc: w.s})
-	}
+	op := &Operator{z: make([]float64, w.s*w.m), s: w.s, p: w.m, comp: w.comp, shift: dot(y, y)}
+	w.zy(op.z, y)
 	return op
 }
 
@@ -251,12 +248,8 @@ func (w *Subspace) GOperator(y []float64) *Operator {
 // It panics if len(x) ≠ m.
 func (w *Subspace) HOperator(x []float64) *Operator {
 	w.checkX(x, "x")
-	op := &Operator{zt: make([]float64, w.n*w.s), s: w.s, p: w.n, comp: w.comp, shift: dot(x, x)}
-	L := w.m * w.n
-	for t := 0; t < w.s; t++ {
-		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
-		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: op.zt[t:], Inc: w.s})
-	}
+	op := &Operator{z: make([]float64, w.s*w.n), s: w.s, p: w.n, comp: w.comp, shift: dot(x, x)}
+	w.zx(op.z, x)
 	return op
 }
 
@@ -274,7 +267,14 @@ func (w *Subspace) gramInto(dst *mat.SymDense, op *Operator) {
 		panic("subspace: partial matrix must be stored upper")
 	}
 	if op.s > 0 {
-		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: p, Cols: op.s, Stride: op.s, Data: op.zt}, 0, raw)
+		// ZᵀZ through the transpose: gonum's Syrk is faster in NoTrans form.
+		zt := make([]float64, p*op.s)
+		for t := 0; t < op.s; t++ {
+			for a := 0; a < p; a++ {
+				zt[a*op.s+t] = op.z[t*p+a]
+			}
+		}
+		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: p, Cols: op.s, Stride: op.s, Data: zt}, 0, raw)
 	} else {
 		for i := 0; i < p; i++ {
 			for j := i; j < p; j++ {
