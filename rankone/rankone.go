@@ -102,6 +102,8 @@ type Progress struct {
 	Searcher     string
 	Iteration    int
 	Starts       int
+	Nodes        int     // cells processed (global searches)
+	Frontier     int     // cells waiting (global searches)
 	Upper, Lower float64 // best certified bounds so far (Upper = 1 before any)
 	Value        float64 // best h so far (not certified)
 	Elapsed      time.Duration

@@ -41,15 +41,34 @@ func MinEigLower(a mat.Symmetric, guess float64) float64 {
 		return math.Inf(1)
 	}
 	full := make([]float64, n*n)
+	if sd, ok := a.(*mat.SymDense); ok {
+		raw := sd.RawSymmetric()
+		for i := 0; i < n; i++ {
+			for j := i; j < n; j++ {
+				v := raw.Data[i*raw.Stride+j]
+				full[i*n+j], full[j*n+i] = v, v
+			}
+		}
+	} else {
+		for i := 0; i < n; i++ {
+			for j := 0; j < n; j++ {
+				full[i*n+j] = a.At(i, j)
+			}
+		}
+	}
+	return minEigLowerDense(full, n, guess)
+}
+
+// minEigLowerDense is MinEigLower for a full symmetric row-major matrix,
+// which it may not modify.
+func minEigLowerDense(full []float64, n int, guess float64) float64 {
 	var rowMax float64
 	for i := 0; i < n; i++ {
 		var r float64
-		for j := 0; j < n; j++ {
-			v := a.At(i, j)
+		for _, v := range full[i*n : (i+1)*n] {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return math.Inf(-1)
 			}
-			full[i*n+j] = v
 			r += math.Abs(v)
 		}
 		rowMax = math.Max(rowMax, r)
@@ -82,6 +101,21 @@ func MinEigLower(a mat.Symmetric, guess float64) float64 {
 
 // MaxEigUpper returns a proven upper bound on λmax(A), by MinEigLower(−A).
 func MaxEigUpper(a mat.Symmetric, guess float64) float64 {
+	if sd, ok := a.(*mat.SymDense); ok {
+		n := sd.SymmetricDim()
+		if n == 0 {
+			return math.Inf(-1)
+		}
+		raw := sd.RawSymmetric()
+		full := make([]float64, n*n)
+		for i := 0; i < n; i++ {
+			for j := i; j < n; j++ {
+				v := -raw.Data[i*raw.Stride+j]
+				full[i*n+j], full[j*n+i] = v, v
+			}
+		}
+		return -minEigLowerDense(full, n, -guess)
+	}
 	return -MinEigLower(negated{a}, -guess)
 }
 

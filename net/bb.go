@@ -1,0 +1,395 @@
+package net
+
+import (
+	"container/heap"
+	"context"
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+	"time"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// BranchBound proves the global optimum to a requested gap by
+// branch-and-bound over cells of the smaller side's sphere: boxes on the
+// faces of the cube, seen radially.
+//
+// Cell bound (derived here). Let ĉ be the unit direction of a cell's centre,
+// r ≥ ‖x − ĉ‖ for every unit x in the cell (the half-diagonal of the box:
+// see the package doc), f̄ ≥ λmax(H(ĉ)) = max_y ĉᵀG(y)ĉ proven, and Λ ≥ h*
+// any proven bound (h* = max_y λmax(G(y)), so λmax(G(y)) ≤ Λ for every y).
+// For unit x in the cell, d = x − ĉ, ρ = ‖d‖ ≤ r, and G = G(y) ⪰ 0 with
+// q = ĉᵀGĉ ∈ [0, f̄]:
+// xᵀGx = q + 2dᵀGĉ + dᵀGd. Write d = d⊥ + (dᵀĉ)ĉ; since x and ĉ are unit,
+// dᵀĉ = −ρ²/2, so 2dᵀGĉ = 2d⊥ᵀP⊥Gĉ − ρ²q, and for PSD G,
+// ‖P⊥Gĉ‖² = ‖Gĉ‖² − q² ≤ λmax(G)q − q² ≤ q(Λ − q); also dᵀGd ≤ Λρ². Hence
+//
+//	xᵀGx ≤ q + 2ρ√(q(Λ − q)) + ρ²(Λ − q) = (√q + ρ√(Λ − q))².
+//
+// With q = Λcos²θ this is Λ(cosθ + ρ sinθ)², increasing in q up to
+// q = Λ/(1+ρ²) where it reaches Λ(1+ρ²), and increasing in ρ. So the
+// maximum of h over the cell is at most (√f̄ + r√(Λ − f̄))² if
+// f̄ ≤ Λ/(1+r²), at most Λ(1+r²) otherwise, and at most Λ always. Near a
+// nondegenerate maximiser f̄ ≈ Λ and the first-order term vanishes, so cells
+// need only shrink like √gap, not like gap.
+//
+// The search keeps the cells in a max-heap (container/heap) keyed by their
+// bound, splits the best cells (every face coordinate bisected), prunes cells
+// whose bound cannot beat the incumbent by more than the requested gap, and
+// polishes promising centres with a local method to raise the incumbent.
+// The certified global bound is the largest bound over live and pruned
+// cells; cell bounds computed with an older Λ remain valid. Cells are
+// processed in fixed batches whose results are merged in order, so the
+// result does not depend on Workers.
+//
+// The zero value is ready to use.
+type BranchBound struct {
+	// Gap is the requested relative gap on h*: the search stops when
+	// hUpper − hLower ≤ Gap·hUpper. Zero means 1e-6.
+	Gap float64
+	// AbsGap, if positive, also stops the search when Upper − Lower ≤ AbsGap
+	// on d*. Zero means no absolute criterion.
+	AbsGap float64
+	// MaxNodes bounds the cells evaluated; zero means 5e7.
+	MaxNodes int
+	// MaxFrontier bounds the cells kept waiting (memory); zero means 1<<21.
+	MaxFrontier int
+	// Workers is the number of goroutines; zero means GOMAXPROCS.
+	Workers int
+	// Local polishes promising cell centres; nil means &rankone.TrustRegion{}.
+	Local rankone.Local
+	// Progress, if set, is called at most every 200 ms with nodes processed,
+	// frontier size and the current bounds.
+	Progress func(rankone.Progress)
+}
+
+var _ rankone.Searcher = (*BranchBound)(nil)
+
+// Name returns "branch-and-bound".
+func (b *BranchBound) Name() string { return "branch-and-bound" }
+
+// cellBound returns the bound on max h over a cell (see BranchBound):
+// ψ = (√f̄ + r√(Λ − f̄))² when f̄ ≤ Λ/(1+r²), else Λ(1 + r²), and never
+// more than Λ.
+func cellBound(fbar, r, lam float64) float64 {
+	if fbar > lam {
+		fbar = lam
+	}
+	if fbar < 0 {
+		fbar = 0
+	}
+	rr := accurate.MulUp(r, r)
+	// A lower estimate of Λ/(1+r²); below it ψ is increasing in q.
+	qStar := lam / (1 + r*r) * (1 - 1e-12)
+	b := accurate.MulUp(lam, accurate.AddUp(1, rr))
+	if fbar <= qStar {
+		t := accurate.AddUp(accurate.SqrtUp(fbar), accurate.MulUp(r, accurate.SqrtUp(accurate.Up(lam-fbar))))
+		b = math.Min(b, accurate.MulUp(t, t))
+	}
+	return b
+}
+
+type cell struct {
+	face   int
+	lo, hi []float64 // box in the d−1 free face coordinates
+	fbar   float64   // proven upper bound of λmax at the centre direction
+	est    float64
+	r      float64
+	key    float64
+	vec    []float32 // best exact-side vector at the centre: the children's warm start
+	lam    float64   // the Λ its key was computed with
+}
+
+type cellHeap []*cell
+
+func (h cellHeap) Len() int { return len(h) }
+func (h cellHeap) Less(i, j int) bool {
+	if h[i].key != h[j].key {
+		return h[i].key > h[j].key
+	}
+	return h[i].est > h[j].est
+}
+func (h cellHeap) Swap(i, j int) { h[i], h[j] = h[j], h[i] }
+func (h *cellHeap) Push(x any)   { *h = append(*h, x.(*cell)) }
+func (h *cellHeap) Pop() any {
+	old := *h
+	c := old[len(old)-1]
+	*h = old[:len(old)-1]
+	return c
+}
+
+// centre writes the face point of a cell's centre into c (length d).
+func (cl *cell) centre(c []float64, d int) {
+	k := 0
+	for j := 0; j < d; j++ {
+		if j == cl.face {
+			c[j] = 1
+			continue
+		}
+		c[j] = (cl.lo[k] + cl.hi[k]) / 2 // dyadic: exact
+		k++
+	}
+}
+
+// radius returns an upper bound on the half-diagonal of the box.
+func (cl *cell) radius() float64 {
+	var s float64
+	for k := range cl.lo {
+		h := (cl.hi[k] - cl.lo[k]) / 2 // exact
+		s += h * h
+	}
+	return accurate.SqrtUp(accurate.UpperRel(s, len(cl.lo)+1))
+}
+
+// children bisects every coordinate of the box.
+func (cl *cell) children() []*cell {
+	k := len(cl.lo)
+	out := make([]*cell, 0, 1<<k)
+	for mask := 0; mask < 1<<k; mask++ {
+		c := &cell{face: cl.face, lo: make([]float64, k), hi: make([]float64, k), vec: cl.vec}
+		for j := 0; j < k; j++ {
+			mid := (cl.lo[j] + cl.hi[j]) / 2
+			if mask&(1<<j) == 0 {
+				c.lo[j], c.hi[j] = cl.lo[j], mid
+			} else {
+				c.lo[j], c.hi[j] = mid, cl.hi[j]
+			}
+		}
+		out = append(out, c)
+	}
+	return out
+}
+
+// Search implements rankone.Searcher.
+func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	begin := time.Now()
+	gap := b.Gap
+	if gap == 0 {
+		gap = 1e-6
+	}
+	if !(gap > 0 && gap < 1) {
+		return rankone.Result{}, fmt.Errorf("net: Gap = %v, want 0 < Gap < 1", gap)
+	}
+	maxNodes := b.MaxNodes
+	if maxNodes <= 0 {
+		maxNodes = 5e7
+	}
+	maxFront := b.MaxFrontier
+	if maxFront <= 0 {
+		maxFront = 1 << 21
+	}
+	workers := b.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	l := b.Local
+	if l == nil {
+		l = &rankone.TrustRegion{}
+	}
+	gate := newGate(b.Progress, begin)
+	sd := newSide(w)
+	d := sd.d
+	res := rankone.Result{FoundBy: b.Name(), Starts: 1}
+
+	// Incumbent from the local method's default start; Λ from the flattening.
+	inc, err := (&rankone.MultiStart{Method: l, Starts: 4, Workers: 1}).Search(ctx, w)
+	if err != nil {
+		return inc, err
+	}
+	res.X, res.Y, res.Upper, res.Value = inc.X, inc.Y, inc.Upper, inc.Value
+	res.Evaluations += inc.Evaluations
+	hLow := hFromUpper(res.Upper)
+	lam, _ := rankone.FlatteningBound(w)
+	lam = math.Min(lam, 1)
+	bestEst := res.Value
+
+	// Evaluate cells, in parallel, into their own slots.
+	eval := func(cells []*cell, vecs [][]float64) {
+		var wg sync.WaitGroup
+		next := make(chan int)
+		for range min(workers, len(cells)) {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				s := side{w: w, onX: sd.onX, d: d, p: sd.p, form: sd.form}
+				c := make([]float64, d)
+				for i := range next {
+					cl := cells[i]
+					cl.centre(c, d)
+					v := make([]float64, sd.p)
+					for j, a := range cl.vec {
+						v[j] = float64(a)
+					}
+					cl.est, cl.fbar = s.value(c, v)
+					cl.vec = make([]float32, sd.p)
+					for j, a := range v {
+						cl.vec[j] = float32(a)
+					}
+					cl.r = cl.radius()
+					vecs[i] = v
+				}
+			}()
+		}
+		for i := range cells {
+			next <- i
+		}
+		close(next)
+		wg.Wait()
+	}
+
+	var front cellHeap
+	nodes := 0
+	maxPruned := 0.0
+	status := rankone.LimitReached
+	if d == 1 {
+		// S^0 is the point ±1: s(1)² is the exact answer, no cells needed.
+		c := &cell{face: 0}
+		vecs := make([][]float64, 1)
+		eval([]*cell{c}, vecs)
+		nodes = 1
+		lam = math.Min(lam, c.fbar)
+		x, y := sd.witness([]float64{1}, vecs[0])
+		if u, err := rankone.Verify(w, x, y); err == nil && u < res.Upper {
+			res.X, res.Y, res.Upper = x, y, u
+		}
+		status = rankone.GapReached
+	} else {
+		// Initial cells: each face split into 4 per coordinate.
+		var init []*cell
+		for f := 0; f < d; f++ {
+			root := &cell{face: f, lo: make([]float64, d-1), hi: make([]float64, d-1)}
+			for j := range root.lo {
+				root.lo[j], root.hi[j] = -1, 1
+			}
+			for _, c := range root.children() {
+				init = append(init, c.children()...)
+			}
+		}
+		const batch = 16
+		pending := init
+		for {
+			vecs := make([][]float64, len(pending))
+			eval(pending, vecs)
+			nodes += len(pending)
+			// Candidates in order: raise the incumbent.
+			bi := -1
+			for i, c := range pending {
+				c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
+				if c.est > bestEst*(1+1e-12) && (bi < 0 || c.est > pending[bi].est) {
+					bi = i
+				}
+			}
+			if bi >= 0 {
+				bestEst = pending[bi].est
+				cpt := make([]float64, d)
+				pending[bi].centre(cpt, d)
+				x, y := sd.witness(cpt, vecs[bi])
+				px, py, u, st := polish(ctx, w, l, x, y)
+				res.Evaluations += st.Evaluations
+				res.Iterations += st.Iterations
+				if u < res.Upper {
+					res.X, res.Y, res.Upper, res.Value = px, py, u, st.Value
+					hLow = hFromUpper(u)
+					bestEst = math.Max(bestEst, st.Value)
+				}
+			}
+			thresh := hLow / (1 - gap)
+			for _, c := range pending {
+				if c.key <= thresh {
+					maxPruned = math.Max(maxPruned, c.key)
+				} else {
+					heap.Push(&front, c)
+				}
+			}
+			// Global bound: the largest bound over live and pruned cells. A key
+			// computed with an older (larger) Λ is still valid but loose, so
+			// stale tops are re-bounded with the current Λ (lazy update),
+			// which may lower Λ again, until the top is fresh.
+			for {
+				top := maxPruned
+				for len(front) > 0 && front[0].lam > lam {
+					c := heap.Pop(&front).(*cell)
+					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
+					if c.key <= thresh {
+						maxPruned = math.Max(maxPruned, c.key)
+					} else {
+						heap.Push(&front, c)
+					}
+				}
+				top = math.Max(top, maxPruned)
+				if len(front) > 0 {
+					top = math.Max(top, front[0].key)
+				}
+				if top >= lam {
+					break
+				}
+				lam = top
+			}
+			gate.report(rankone.Progress{Searcher: b.Name(), Nodes: nodes, Frontier: len(front),
+				Upper: res.Upper, Lower: lowerFromH(lam)})
+			if done(lam, hLow, gap, res.Upper, b.AbsGap) {
+				status = rankone.GapReached
+				break
+			}
+			if ctx.Err() != nil {
+				status = rankone.Cancelled
+				break
+			}
+			if nodes >= maxNodes || len(front) >= maxFront {
+				break
+			}
+			// Next batch: pop the best cells; re-bound with the current Λ.
+			pending = pending[:0:0]
+			for len(pending) < batch*(1<<(d-1)) && len(front) > 0 {
+				c := heap.Pop(&front).(*cell)
+				if c.lam > lam {
+					// Stale key: re-bound with the current Λ; if the cell is
+					// no longer the best, put it back (lazy best-first).
+					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
+					if c.key <= thresh {
+						maxPruned = math.Max(maxPruned, c.key)
+						continue
+					}
+					if len(front) > 0 && c.key < front[0].key {
+						heap.Push(&front, c)
+						continue
+					}
+				}
+				if c.key <= thresh {
+					maxPruned = math.Max(maxPruned, c.key)
+					continue
+				}
+				pending = append(pending, c.children()...)
+			}
+			if len(pending) == 0 {
+				lam = math.Min(lam, math.Max(maxPruned, hLow))
+				status = rankone.GapReached
+				break
+			}
+		}
+	}
+	res.Status = status
+	res.Evaluations += nodes
+	if lo := lowerFromH(lam); lo > 0 {
+		res.Lower = lo
+		res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells)", nodes)
+	}
+	res.Elapsed = time.Since(begin)
+	if err := ctx.Err(); err != nil {
+		res.Status = rankone.Cancelled
+		return res, err
+	}
+	return res, nil
+}
+
+// done reports whether the requested gap is reached.
+func done(hUp, hLow, gap, upper, absGap float64) bool {
+	if hUp-hLow <= gap*hUp {
+		return true
+	}
+	return absGap > 0 && upper-lowerFromH(hUp) <= absGap
+}

@@ -1,0 +1,105 @@
+package net
+
+import (
+	"context"
+	"errors"
+	"math"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// ErrTooLarge is returned when a net or search would exceed its size limit.
+var ErrTooLarge = errors.New("net: search too large for its limit")
+
+// side is the sphere the net or the cells live on (the smaller side).
+type side struct {
+	w     *subspace.Subspace
+	onX   bool // the net is over x ∈ S^{m−1}, y solved exactly
+	d, p  int  // dimensions of the net side and of the exact side
+	form  *subspace.BlockForm
+	evals int
+}
+
+// blockFormLimit is the largest block form (bytes) the searches build.
+const blockFormLimit = 256 << 20
+
+func newSide(w *subspace.Subspace) side {
+	s := side{w: w, onX: true, d: w.Rows(), p: w.Cols()}
+	if w.Rows() > w.Cols() {
+		s = side{w: w, onX: false, d: w.Cols(), p: w.Rows()}
+	}
+	if w.BlockFormBytes(s.onX) <= blockFormLimit {
+		s.form = w.NewBlockForm(s.onX)
+	}
+	return s
+}
+
+// value returns an estimate and a proven upper bound of s(ĉ)² =
+// λmax(H(c))/‖c‖² for the direction ĉ of the float point c, and writes the
+// best vector of the exact side into vec.
+func (s *side) value(c, vec []float64) (est, upper float64) {
+	s.evals++
+	var e, u float64
+	if s.form != nil {
+		e, u = s.form.MaxEig(c, vec)
+	} else if s.onX {
+		e, u = s.w.MaxEigH(c, vec)
+	} else {
+		e, u = s.w.MaxEigG(c, vec)
+	}
+	cc := accurate.SumSqLower(c)
+	var ccEst float64
+	for _, v := range c {
+		ccEst += v * v
+	}
+	return e / ccEst, accurate.Up(u / cc)
+}
+
+// witness returns (x, y) from a net-side point c and exact-side vector v.
+func (s *side) witness(c, v []float64) (x, y []float64) {
+	cn := append([]float64(nil), c...)
+	var n float64
+	for _, a := range cn {
+		n += a * a
+	}
+	n = math.Sqrt(n)
+	for i := range cn {
+		cn[i] /= n
+	}
+	vn := append([]float64(nil), v...)
+	if s.onX {
+		return cn, vn
+	}
+	return vn, cn
+}
+
+// polish refines a witness with a local method and returns the better of
+// the polished and the original point by their certified Upper.
+func polish(ctx context.Context, w *subspace.Subspace, l rankone.Local, x, y []float64) (bx, by []float64, upper float64, st rankone.Stats) {
+	u0, err := rankone.Verify(w, x, y)
+	if err != nil {
+		u0 = 1
+	}
+	px, py := append([]float64(nil), x...), append([]float64(nil), y...)
+	st, _ = l.Refine(ctx, w, px, py)
+	u1, err := rankone.Verify(w, px, py)
+	if err == nil && u1 < u0 {
+		return px, py, u1, st
+	}
+	return x, y, u0, st
+}
+
+// lowerFromH returns the certified lower bound √(1 − hUpper) on d*.
+func lowerFromH(hUpper float64) float64 {
+	if hUpper >= 1 {
+		return 0
+	}
+	return accurate.SqrtDown(accurate.Down(1 - math.Max(hUpper, 0)))
+}
+
+// hFromUpper returns the certified lower bound 1 − Upper² on h*.
+func hFromUpper(upper float64) float64 {
+	return math.Max(0, accurate.Down(1-accurate.MulUp(upper, upper)))
+}

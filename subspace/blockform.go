@@ -1,0 +1,157 @@
+package subspace
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/eigen"
+	"github.com/segre-lab/segre/internal/verified"
+)
+
+// BlockForm holds the exact side's matrix as a quadratic form in the
+// other side's vector, for global searches whose net side is small:
+// H(x) = Σ_ab x_a x_b H_ab with the d² blocks H_ab (p×p) precomputed once, so
+// that evaluating λmax(H(x)) at a new x costs O(d²p²) and no pass over the
+// basis. It is immutable and safe for concurrent use.
+type BlockForm struct {
+	w      *Subspace
+	onX    bool // the form is in x (blocks n×n); otherwise in y (blocks m×m)
+	d, p   int
+	blocks []float64 // d×d blocks of p×p: block (a, b) at ((a·d+b)·p·p)
+	errs   []float64 // errs[a·d+b]: proven bound on the block's contribution error
+}
+
+// BlockFormBytes returns the storage a BlockForm for the given side needs.
+func (w *Subspace) BlockFormBytes(onX bool) int64 {
+	d, p := w.n, w.m
+	if onX {
+		d, p = w.m, w.n
+	}
+	return 8 * int64(d) * int64(d) * int64(p) * int64(p)
+}
+
+// NewBlockForm builds the form in x (onX) or in y. With Z(x) = [S_tᵀx]_t the
+// blocks are M_ab = Σ_t R_a,tᵀ R_b,t where R_a,t = row a of the stored matrix
+// S_t, so Z(x)ᵀZ(x) = Σ_ab x_a x_b M_ab exactly; the float blocks err
+// entrywise by at most γ_s Σ_t|R_a,t|ᵀ|R_b,t|, of spectral norm at most
+// γ_s‖R_a‖_F‖R_b‖_F (Cauchy–Schwarz).
+func (w *Subspace) NewBlockForm(onX bool) *BlockForm {
+	d, p := w.n, w.m
+	if onX {
+		d, p = w.m, w.n
+	}
+	f := &BlockForm{w: w, onX: onX, d: d, p: p, blocks: make([]float64, d*d*p*p), errs: make([]float64, d*d)}
+	s, L := w.s, w.m*w.n
+	// rows[a] is the s×p matrix of row (or column) a of every stored matrix.
+	rows := make([][]float64, d)
+	rn := make([]float64, d)
+	for a := 0; a < d; a++ {
+		r := make([]float64, s*p)
+		for t := 0; t < s; t++ {
+			q := w.q[t*L : (t+1)*L]
+			for j := 0; j < p; j++ {
+				if onX {
+					r[t*p+j] = q[a*w.n+j]
+				} else {
+					r[t*p+j] = q[j*w.n+a]
+				}
+			}
+		}
+		rows[a] = r
+		rn[a] = accurate.SqrtUp(accurate.SumSqUpper(r))
+	}
+	g := accurate.Gamma(max(s, 1))
+	gc := accurate.Gamma(d*d + 2)
+	for a := 0; a < d; a++ {
+		for b := 0; b < d; b++ {
+			blk := f.blocks[(a*d+b)*p*p : (a*d+b+1)*p*p]
+			if s > 0 {
+				blas64.Gemm(blas.Trans, blas.NoTrans, 1,
+					blas64.General{Rows: s, Cols: p, Stride: p, Data: rows[a]},
+					blas64.General{Rows: s, Cols: p, Stride: p, Data: rows[b]},
+					0, blas64.General{Rows: p, Cols: p, Stride: p, Data: blk})
+			}
+			e := accurate.MulUp(g, accurate.MulUp(rn[a], rn[b]))
+			e = accurate.AddUp(e, accurate.MulUp(gc, accurate.SqrtUp(accurate.SumSqUpper(blk))))
+			f.errs[a*d+b] = e
+		}
+	}
+	return f
+}
+
+// MaxEig returns an estimate and a proven upper bound of λmax(H(x)) (or of
+// λmax(G(y)) for a form in y) for the float vector c exactly as given, as
+// MaxEigH does, and writes the estimated top eigenvector into vec (whose
+// content on entry is the start vector; zero for none). It panics on wrong
+// lengths.
+//
+// Derivation: A = fl(Σ_ab c_a c_b M̂_ab) differs from Z(c)ᵀZ(c) by at most
+// δ = √2·Σ_ab |c_a||c_b|·errs_ab in spectral norm (the block errors of
+// NewBlockForm, plus γ_{d²+2}Σ|c_a c_b|‖M̂_ab‖_F for forming the products and
+// the sum). The rest is as in MaxEigH: W stored, λmax(H) ≤ (λ̄max(A) + δ)/(1−η);
+// W⊥ stored, λmax(H) ≤ ‖c‖² − max(0, λ̲min(A) − δ)/(1+η).
+func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
+	d, p := f.d, f.p
+	if len(c) != d || len(vec) != p {
+		panic("subspace: BlockForm.MaxEig needs vectors of lengths " + itoa(d) + " and " + itoa(p))
+	}
+	w := f.w
+	a := make([]float64, p*p)
+	var delta float64
+	for i := 0; i < d; i++ {
+		for j := 0; j < d; j++ {
+			cij := c[i] * c[j]
+			if cij == 0 {
+				continue
+			}
+			blk := f.blocks[(i*d+j)*p*p : (i*d+j+1)*p*p]
+			blas64.Axpy(cij, blas64.Vector{N: p * p, Data: blk, Inc: 1}, blas64.Vector{N: p * p, Data: a, Inc: 1})
+			delta = accurate.AddUp(delta, accurate.MulUp(accurate.MulUp(math.Abs(c[i]), math.Abs(c[j])), f.errs[i*d+j]))
+		}
+	}
+	// The symmetric matrix used is the upper triangle of A reflected; its
+	// error's entries are bounded by the symmetric majorant behind δ taken at
+	// (min(i,j), max(i,j)), whose Frobenius norm is at most √2 times δ.
+	delta = accurate.MulUp(delta, 1.4143)
+	am := mat.NewSymDense(p, a)
+	cc := accurate.SumSqUpper(c)
+	var cEst float64
+	for _, v := range c {
+		cEst += v * v
+	}
+	// The estimate uses the full float matrix with the (assembly) general
+	// matrix-vector product; only the bound needs the exact symmetric form.
+	full := blas64.General{Rows: p, Cols: p, Stride: p, Data: append([]float64(nil), a...)}
+	alpha, shift := 1.0, 0.0
+	if w.comp {
+		alpha, shift = -1, cEst
+	}
+	apply := func(dst, src []float64) {
+		blas64.Gemv(blas.NoTrans, alpha, full, blas64.Vector{N: p, Data: src, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
+		if shift != 0 {
+			for i := range dst {
+				dst[i] += shift * src[i]
+			}
+		}
+	}
+	est, _ = eigen.Top(apply, vec, 0, 0, 1e-10)
+	for _, v := range c {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return est, math.Inf(1)
+		}
+	}
+	if w.eta >= 0.5 {
+		return est, math.Inf(1)
+	}
+	if !w.comp {
+		lam := accurate.AddUp(verified.MaxEigUpper(am, est), delta)
+		return est, accurate.Up(math.Max(lam, 0) / accurate.Down(1-w.eta))
+	}
+	lmin := accurate.Down(verified.MinEigLower(am, cEst-est) - delta)
+	sub := accurate.Down(math.Max(lmin, 0) / accurate.Up(1+w.eta))
+	return est, math.Max(0, accurate.Up(cc-sub))
+}
