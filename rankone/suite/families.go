@@ -308,3 +308,33 @@ func ClosedForms(short bool) []Instance {
 	}
 	return out
 }
+
+// NormedAlgebraComplement is the orthogonal complement in R^{n×n} (n ∈ {2, 4})
+// of the span of the Hurwitz–Radon matrices of HurwitzRadonMatrices(n) (the
+// left multiplications of the complex numbers or the quaternions), spanned by
+// n² − n Gaussian matrices with their components in that span removed.
+// Derived: with Q_t = A_t/√n an orthonormal basis of the removed span and
+// {A_tᵀx} orthonormal for unit x, Σ_t (xᵀQ_t y)² = ‖y‖²/n = 1/n, so
+// h(x, y) = 1 − 1/n for all unit x, y: d* = 1/√n, and W contains no rank-one
+// matrix although dim W = n² − n (for n = 4: h* = 3/4, d* = 1/2).
+func NormedAlgebraComplement(n int, seed uint64) Instance {
+	rng := newRand(seed, "normed-algebra-complement")
+	hr := HurwitzRadonMatrices(n)
+	L := n * n
+	var d []float64
+	for t := 0; t < L-n; t++ {
+		b := gaussian(rng, L)
+		for _, a := range hr {
+			var p float64
+			for l := range b {
+				p += b[l] * a[l]
+			}
+			for l := range b {
+				b[l] -= p * a[l] / float64(n)
+			}
+		}
+		d = append(d, b...)
+	}
+	return Instance{Family: "normed-algebra-complement", Name: fmt.Sprintf("normed-algebra-complement/%d/s%d", n, seed),
+		Basis: subspace.Basis{Count: L - n, Rows: n, Cols: n, Data: d}, Optimum: 1 / math.Sqrt(float64(n))}
+}

@@ -97,3 +97,23 @@ func TestHaarOrthogonal(t *testing.T) {
 		}
 	}
 }
+
+// The normed-algebra complement has h ≡ 1 − 1/n (derived in its doc).
+func TestNormedAlgebraComplementConstant(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 4))
+	for _, n := range []int{2, 4} {
+		w, err := subspace.New(NormedAlgebraComplement(n, 1).Basis, subspace.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if w.Dim() != n*n-n {
+			t.Errorf("dim %d, want %d", w.Dim(), n*n-n)
+		}
+		for i := 0; i < 10; i++ {
+			x, y := unit(gaussian(rng, n)), unit(gaussian(rng, n))
+			if h := w.Value(x, y); math.Abs(h-(1-1/float64(n))) > 1e-13 {
+				t.Errorf("n=%d: h = %v, want %v", n, h, 1-1/float64(n))
+			}
+		}
+	}
+}
