@@ -7,17 +7,17 @@ import (
 )
 
 // The demo is an invented scenario, with invented numbers: a workshop tunes a
-// 5×7 grid of heating elements (5 rows of a plate, 7 zones along it). The
-// controller can only produce power patterns in the span of 11 "modes" it
+// 4×7 grid of heating elements (4 rows of a plate, 7 zones along it). The
+// controller can only produce power patterns in the span of 9 "modes" it
 // was built with. An engineer asks whether some pattern the controller can
 // produce is (close to) separable — row profile times zone profile — since
 // separable patterns are the ones the plate's calibration routine accepts.
 // The answer is the certified distance from the mode span to the rank-one
 // matrices.
-const demoTitle = "11 heating-mode patterns on a 5×7 plate grid (invented scenario)"
+const demoTitle = "9 heating-mode patterns on a 4×7 plate grid (invented scenario)"
 
 func demoBasis() subspace.Basis {
-	const r, m, n = 11, 5, 7
+	const r, m, n = 9, 4, 7
 	d := make([]float64, 0, r*m*n)
 	for t := 0; t < r; t++ {
 		ft := float64(t + 1)

@@ -34,8 +34,8 @@ func TestDemoJSON(t *testing.T) {
 			t.Errorf("missing key %q", k)
 		}
 	}
-	if v["rows"].(float64) != 5 || v["cols"].(float64) != 7 {
-		t.Errorf("demo shape %v×%v, want 5×7", v["rows"], v["cols"])
+	if v["rows"].(float64) != 4 || v["cols"].(float64) != 7 {
+		t.Errorf("demo shape %v×%v, want 4×7", v["rows"], v["cols"])
 	}
 	lo, up := v["lower"].(float64), v["upper"].(float64)
 	if !(lo >= 0 && lo <= up && up <= 1) {

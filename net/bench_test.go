@@ -1,0 +1,80 @@
+package net
+
+import (
+	"context"
+	"fmt"
+	"testing"
+
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/rankone/suite"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// BenchmarkBranchBound reports the time (ns/op) and cells (nodes/op) to
+// certify a relative gap of 1e-6 on h* for min(m, n) = d ∈ {2, 3, 4} and
+// max(m, n) = n ∈ {8, 32, 64}, on Gaussian random subspaces of dimension
+// mn/2. Targets: d = 3, n = 32 under 5 s; d = 4, n = 64 under 60 s.
+// It fails if the gap is not reached.
+func BenchmarkBranchBound(b *testing.B) {
+	for _, d := range []int{2, 3, 4} {
+		for _, n := range []int{8, 32, 64} {
+			in := suite.Random(d, n, d*n/2, 1)
+			w, err := subspace.New(in.Basis, subspace.Options{})
+			if err != nil {
+				b.Fatal(err)
+			}
+			b.Run(fmt.Sprintf("d%d/n%d", d, n), func(b *testing.B) {
+				var nodes int
+				for b.Loop() {
+					r, err := (&BranchBound{}).Search(context.Background(), w)
+					if err != nil || r.Status != rankone.GapReached {
+						b.Fatalf("status %v, err %v", r.Status, err)
+					}
+					nodes = r.Evaluations
+				}
+				b.ReportMetric(float64(nodes), "evals/op")
+			})
+		}
+	}
+}
+
+// BenchmarkExhaustive reports the time of the exhaustive net at ε = 0.05 on
+// the same instances, and the lower bound it proves.
+func BenchmarkExhaustive(b *testing.B) {
+	for _, d := range []int{2, 3, 4} {
+		for _, n := range []int{8, 32, 64} {
+			in := suite.Random(d, n, d*n/2, 1)
+			w, err := subspace.New(in.Basis, subspace.Options{})
+			if err != nil {
+				b.Fatal(err)
+			}
+			b.Run(fmt.Sprintf("d%d/n%d", d, n), func(b *testing.B) {
+				var r rankone.Result
+				for b.Loop() {
+					r, err = (&Exhaustive{Epsilon: 0.05}).Search(context.Background(), w)
+					if err != nil {
+						b.Fatal(err)
+					}
+				}
+				b.ReportMetric(r.Lower, "lower")
+				b.ReportMetric(r.Upper, "upper")
+			})
+		}
+	}
+}
+
+// BenchmarkWorkers compares branch-and-bound with 1 and 2 workers on
+// d = 3, n = 32 (same answer, by the conformance test).
+func BenchmarkWorkers(b *testing.B) {
+	in := suite.Random(3, 32, 48, 1)
+	w, _ := subspace.New(in.Basis, subspace.Options{})
+	for _, k := range []int{1, 2} {
+		b.Run(fmt.Sprintf("workers%d", k), func(b *testing.B) {
+			for b.Loop() {
+				if _, err := (&BranchBound{Workers: k}).Search(context.Background(), w); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}
