@@ -27,6 +27,9 @@ func TestConformance(t *testing.T) {
 			SameAs:   []func() rankone.Searcher{func() rankone.Searcher { return &rankone.MultiStart{Starts: 6, Workers: 3} }},
 		}},
 		{"portfolio", func() rankone.Searcher { return &rankone.Portfolio{} }, searchtest.Options{Accuracy: acc}},
+		// All-points makes no accuracy claim on families not spanned by
+		// rank-one matrices; its bounds must still be valid everywhere.
+		{"all-points", func() rankone.Searcher { return &rankone.AllPoints{} }, searchtest.Options{}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) { searchtest.Run(t, c.new, c.opt) })
