@@ -44,7 +44,7 @@ var (
 //     the eigenvalues of −K₂⁻¹K₁: at most n of them (the degree of the Segre
 //     variety P¹×P^{n−1} is n).
 //
-// Every point is then polished by the trust-region method and certified by
+// Every point is then polished by alternating maximisation and certified by
 // Verify; Upper ≤ Tol is required. The list is complete when the hypotheses
 // hold (which is checked numerically: rank of the column and row spaces,
 // real and separated eigenvalues, distinct points); when they fail, an
@@ -331,7 +331,7 @@ func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, 
 			scale(y, 1/norm(y))
 			TopEigen(w.GOperator(y).Apply, x, 0, 0, 1e-13)
 		}
-		st, _ := (&TrustRegion{}).Refine(ctx, w, x, y)
+		st, _ := (&ALS{}).Refine(ctx, w, x, y)
 		u, err := Verify(w, x, y)
 		if err != nil {
 			u = 1
