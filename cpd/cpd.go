@@ -69,8 +69,10 @@ func Compose(a, b, c *mat.Dense) Tensor {
 
 // Options configures Decompose. The zero value gives the defaults.
 type Options struct {
-	// Rank is r; zero means the numerical dimension of the slice span
-	// (right for exact data; noisy data need the rank given).
+	// Rank is r; zero means the numerical dimension of the slice span, for
+	// exact data (points must then lie in the span to 1e-8). A given rank
+	// marks the data as possibly noisy: the principal rank-r slice span is
+	// used and approximate points are accepted and refined.
 	Rank int
 	// Seed seeds the random elements used by the simultaneous
 	// diagonalisation.
@@ -122,7 +124,10 @@ func Decompose(ctx context.Context, t Tensor, opt Options) (*Decomposition, erro
 	if r < 0 || r > min(m, n) || r > p {
 		return nil, fmt.Errorf("%w: rank %d, need 1 ≤ r ≤ min(m, n, p) = %d", ErrShape, r, min(m, n, p))
 	}
-	noisy := false
+	// A rank given by the caller means the data may be noisy: points farther
+	// than the tolerance from the slice span are then accepted as
+	// approximations (and refined by ALS) instead of refused.
+	noisy := r > 0
 	if r == 0 {
 		r = w.Dim()
 	} else if r < w.Dim() {
@@ -132,7 +137,6 @@ func Decompose(ctx context.Context, t Tensor, opt Options) (*Decomposition, erro
 		if err != nil {
 			return nil, err
 		}
-		noisy = true
 	}
 	if r > min(m, n) {
 		return nil, fmt.Errorf("%w (slice span of dimension %d in %d×%d)", rankone.ErrTooManyTerms, r, m, n)

@@ -61,9 +61,11 @@ type AllPoints struct {
 	// eigenvalues; zero means 3.
 	Tries int
 	// Noisy accepts column and row spaces of numerical dimension above
-	// dim W (data perturbed by noise): the leading ones are used, the points
-	// are approximations, and those farther than Tol from W are reported with
-	// ErrNotRankOne. False (the default) refuses such subspaces.
+	// dim W (data perturbed by noise): the leading ones are used, complex
+	// eigenvalue pairs contribute the real and imaginary parts of their
+	// eigenvector, coinciding points are kept, the points are approximations,
+	// and those farther than Tol from W are reported with ErrNotRankOne.
+	// False (the default) refuses all of these.
 	Noisy bool
 }
 
@@ -125,7 +127,7 @@ func (a *AllPoints) Points(ctx context.Context, w *subspace.Subspace) ([]Point, 
 			}
 			return nil, err
 		}
-		pts, err := certifyPoints(ctx, w, xs, tol)
+		pts, err := certifyPoints(ctx, w, xs, tol, a.Noisy)
 		if err == nil || !errors.Is(err, ErrDegenerate) {
 			return pts, err
 		}
@@ -172,7 +174,7 @@ func jennrich(w *subspace.Subspace, rng *rand.Rand, noisy bool) ([][]float64, er
 	if err := nt.Solve(t2.T(), t1.T()); err != nil {
 		return nil, fmt.Errorf("%w: random element singular on the column space", ErrDegenerate)
 	}
-	vecs, err := realEigenvectors(nt.T())
+	vecs, err := realEigenvectors(nt.T(), noisy)
 	if err != nil {
 		return nil, err
 	}
@@ -210,8 +212,12 @@ func topSingular(a *mat.Dense, r int, left, noisy bool) (*mat.Dense, error) {
 }
 
 // realEigenvectors returns the eigenvectors of a, which must have real,
-// well-separated eigenvalues.
-func realEigenvectors(a mat.Matrix) ([][]float64, error) {
+// well-separated eigenvalues. In noisy mode a complex pair (two close
+// eigenvalues pushed off the real line by noise) contributes the real and
+// imaginary parts of its eigenvector, which span approximately the same
+// plane as the two real eigenvectors; the refinement that follows sorts
+// them out.
+func realEigenvectors(a mat.Matrix, noisy bool) ([][]float64, error) {
 	var eg mat.Eigen
 	if !eg.Factorize(a, mat.EigenRight) {
 		return nil, fmt.Errorf("%w: eigen-decomposition failed", ErrDegenerate)
@@ -220,6 +226,27 @@ func realEigenvectors(a mat.Matrix) ([][]float64, error) {
 	var scale float64
 	for _, v := range vals {
 		scale = math.Max(scale, cmplx.Abs(v))
+	}
+	if noisy {
+		var cv mat.CDense
+		eg.VectorsTo(&cv)
+		r, c := cv.Dims()
+		var out [][]float64
+		for j := 0; j < c; j++ {
+			if imag(vals[j]) < -1e-8*scale {
+				continue // the conjugate of a pair already taken
+			}
+			re := make([]float64, r)
+			im := make([]float64, r)
+			for i := 0; i < r; i++ {
+				re[i], im[i] = real(cv.At(i, j)), imag(cv.At(i, j))
+			}
+			out = append(out, re)
+			if imag(vals[j]) > 1e-8*scale {
+				out = append(out, im)
+			}
+		}
+		return out, nil
 	}
 	for _, v := range vals {
 		if math.Abs(imag(v)) > 1e-8*scale {
@@ -316,7 +343,7 @@ func pencilPoints(w *subspace.Subspace, rng *rand.Rand, swap bool) ([][]float64,
 
 // certifyPoints completes each net-side direction with the best vector on
 // the other side, polishes, certifies, and checks distinctness.
-func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, tol float64) ([]Point, error) {
+func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, tol float64, noisy bool) ([]Point, error) {
 	m, n := w.Rows(), w.Cols()
 	var pts []Point
 	var bad error
@@ -337,7 +364,7 @@ func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, 
 			u = 1
 		}
 		for _, p := range pts {
-			if math.Abs(dotv(p.X, x))*math.Abs(dotv(p.Y, y)) >= 1-1e-9 {
+			if !noisy && math.Abs(dotv(p.X, x))*math.Abs(dotv(p.Y, y)) >= 1-1e-9 {
 				return pts, fmt.Errorf("%w: two eigenvectors gave the same point", ErrDegenerate)
 			}
 		}

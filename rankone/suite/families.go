@@ -29,6 +29,13 @@ type Instance struct {
 	Optimum float64
 	// X0, Y0 are a known optimal point (unit), or nil.
 	X0, Y0 []float64
+	// Bound is a known upper bound on d* when Optimum is unknown (0 if none).
+	Bound float64
+	// Points is the number of rank-one points of W when known (0 if not).
+	Points int
+	// Degree is the generic number of complex rank-one points (0 if not
+	// applicable).
+	Degree int
 }
 
 func newRand(seed uint64, family string) *rand.Rand {
@@ -202,7 +209,11 @@ func HurwitzRadon(n, p int) Instance {
 // Planted is the span of x₀y₀ᵀ and k−1 Gaussian m×n matrices, given through a
 // scrambled basis: k Gaussian combinations of those generators. Derived:
 // x₀y₀ᵀ ∈ W, so d* = 0 at (x₀, y₀).
-func Planted(m, n, k int, seed uint64) Instance {
+func Planted(m, n, k int, seed uint64) Instance { return planted(m, n, k, 0, seed) }
+
+// planted builds Planted, adding σE (E Gaussian, unit Frobenius norm, from
+// its own stream) to the planted generator when σ > 0.
+func planted(m, n, k int, sigma float64, seed uint64) Instance {
 	rng := newRand(seed, "planted")
 	L := m * n
 	x0, y0 := unit(gaussian(rng, m)), unit(gaussian(rng, n))
@@ -210,6 +221,12 @@ func Planted(m, n, k int, seed uint64) Instance {
 	for i := 0; i < m; i++ {
 		for j := 0; j < n; j++ {
 			gen[i*n+j] = x0[i] * y0[j]
+		}
+	}
+	if sigma > 0 {
+		e := unit(gaussian(newRand(seed, "planted-noise"), L))
+		for l := range e {
+			gen[l] += sigma * e[l]
 		}
 	}
 	copy(gen[L:], gaussian(rng, (k-1)*L))
@@ -337,4 +354,84 @@ func NormedAlgebraComplement(n int, seed uint64) Instance {
 	}
 	return Instance{Family: "normed-algebra-complement", Name: fmt.Sprintf("normed-algebra-complement/%d/s%d", n, seed),
 		Basis: subspace.Basis{Count: L - n, Rows: n, Cols: n, Data: d}, Optimum: 1 / math.Sqrt(float64(n))}
+}
+
+// PlantedNoisy is Planted with the planted matrix x₀y₀ᵀ replaced by
+// x₀y₀ᵀ + σE (E Gaussian with unit Frobenius norm) before scrambling.
+// Known (derived): d* ≤ dist(x₀y₀ᵀ, W) ≤ σ, since x₀y₀ᵀ + σE ∈ W; Bound
+// holds σ and Optimum is NaN (unknown) for σ > 0.
+func PlantedNoisy(m, n, k int, sigma float64, seed uint64) Instance {
+	if sigma == 0 {
+		return Planted(m, n, k, seed)
+	}
+	in := planted(m, n, k, sigma, seed)
+	in.Family = "planted-noisy"
+	in.Name = fmt.Sprintf("planted-noisy/%dx%d/k%d/σ%g/s%d", m, n, k, sigma, seed)
+	in.Optimum = math.NaN()
+	in.Bound = sigma
+	return in
+}
+
+// RankOneSpan is the span of r generic rank-one matrices a_i b_iᵀ (Gaussian
+// factors), scrambled. Known (derived): d* = 0 at each (a_i, b_i); for
+// r ≤ min(m, n) these are all the rank-one points (Σc_i a_ib_iᵀ has rank
+// #{c_i ≠ 0} when A, B have full column rank), so Points = r; beyond
+// min(m, n) there may be more.
+func RankOneSpan(m, n, r int, seed uint64) Instance {
+	rng := newRand(seed, "rank-one-span")
+	L := m * n
+	gen := make([]float64, r*L)
+	var x0, y0 []float64
+	for s := 0; s < r; s++ {
+		a, b := unit(gaussian(rng, m)), unit(gaussian(rng, n))
+		if s == 0 {
+			x0, y0 = a, b
+		}
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				gen[s*L+i*n+j] = a[i] * b[j]
+			}
+		}
+	}
+	d := make([]float64, r*L)
+	for t := 0; t < r; t++ {
+		mix := gaussian(rng, r)
+		for s := 0; s < r; s++ {
+			for l := 0; l < L; l++ {
+				d[t*L+l] += mix[s] * gen[s*L+l]
+			}
+		}
+	}
+	pts := 0
+	if r <= min(m, n) {
+		pts = r
+	}
+	return Instance{Family: "rank-one-span", Name: fmt.Sprintf("rank-one-span/%dx%d/r%d/s%d", m, n, r, seed),
+		Basis: subspace.Basis{Count: r, Rows: m, Cols: n, Data: d}, Optimum: 0, X0: x0, Y0: y0, Points: pts}
+}
+
+// Boundary is a Gaussian random subspace of the critical dimension
+// (m−1)(n−1)+1: a generic complex subspace of that dimension meets the
+// rank-one matrices in C(m+n−2, m−1) points (the degree of the Segre variety
+// P^{m−1}×P^{n−1}; a projective dimension count). Complex points come in
+// conjugate pairs, so when that degree is odd at least one point is real and
+// d* = 0 (derived); otherwise Optimum is NaN. Degree holds the count.
+func Boundary(m, n int, seed uint64) Instance {
+	k := (m-1)*(n-1) + 1
+	in := Random(m, n, k, seed)
+	in.Family = "boundary"
+	in.Name = fmt.Sprintf("boundary/%dx%d/k%d/s%d", m, n, k, seed)
+	in.Degree = binomial(m+n-2, m-1)
+	if in.Degree%2 == 1 {
+		in.Optimum = 0
+	}
+	return in
+}
+
+func binomial(n, k int) int {
+	c := 1
+	for i := 0; i < k; i++ {
+		c = c * (n - i) / (i + 1)
+	}
+	return c
 }
