@@ -1,8 +1,9 @@
-package rankone
+package rankone_test
 
 import (
 	"context"
 	"fmt"
+	"github.com/segre-lab/segre/rankone"
 	"testing"
 
 	"github.com/segre-lab/segre/rankone/suite"
@@ -20,8 +21,8 @@ func BenchmarkPlanted(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		for _, s := range []Searcher{&ALS{}, &Power{}, &TrustRegion{}} {
-			b.Run(fmt.Sprintf("n%d/%s", n, NameOf(s)), func(b *testing.B) {
+		for _, s := range []rankone.Searcher{&rankone.ALS{}, &rankone.Power{}, &rankone.TrustRegion{}} {
+			b.Run(fmt.Sprintf("n%d/%s", n, rankone.NameOf(s)), func(b *testing.B) {
 				for b.Loop() {
 					r, err := s.Search(context.Background(), w)
 					if err != nil || r.Upper > 1e-10 {

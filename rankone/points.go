@@ -358,7 +358,15 @@ func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, 
 			scale(y, 1/norm(y))
 			TopEigen(w.GOperator(y).Apply, x, 0, 0, 1e-13)
 		}
-		st, _ := (&ALS{}).Refine(ctx, w, x, y)
+		// Polish exact points; in noisy mode keep the algebraic directions
+		// (polishing could pull several of them to the same local maximum of
+		// h; the caller refines the whole decomposition instead).
+		var st Stats
+		if !noisy {
+			st, _ = (&ALS{}).Refine(ctx, w, x, y)
+		} else {
+			st.Value = w.Value(x, y)
+		}
 		u, err := Verify(w, x, y)
 		if err != nil {
 			u = 1

@@ -1,8 +1,9 @@
-package rankone
+package rankone_test
 
 import (
 	"context"
 	"errors"
+	"github.com/segre-lab/segre/rankone"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
@@ -47,7 +48,7 @@ func gauss(rng *rand.Rand, n int) []float64 {
 	return v
 }
 
-func matchAll(t *testing.T, pts []Point, a, b [][]float64) {
+func matchAll(t *testing.T, pts []rankone.Point, a, b [][]float64) {
 	t.Helper()
 	if len(pts) != len(a) {
 		t.Fatalf("%d points, want %d", len(pts), len(a))
@@ -91,7 +92,7 @@ func TestPointsJennrich(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			pts, err := (&AllPoints{Seed: 1}).Points(context.Background(), w)
+			pts, err := (&rankone.AllPoints{Seed: 1}).Points(context.Background(), w)
 			if err != nil {
 				t.Fatalf("%v rot=%v: %v", c, rot, err)
 			}
@@ -121,7 +122,7 @@ func TestPointsPencilCount(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pts, err := (&AllPoints{Seed: 2}).Points(context.Background(), w)
+		pts, err := (&rankone.AllPoints{Seed: 2}).Points(context.Background(), w)
 		if err != nil {
 			t.Fatalf("n=%d: %v", n, err)
 		}
@@ -170,7 +171,7 @@ func TestPointsPencilCount(t *testing.T) {
 			a[s], b[s] = gauss(rng, 2), gauss(rng, n)
 		}
 		w, _ := subspace.New(spanOf(rng, a, b), subspace.Options{})
-		pts, err := (&AllPoints{}).Points(context.Background(), w)
+		pts, err := (&rankone.AllPoints{}).Points(context.Background(), w)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -184,7 +185,7 @@ func TestPointsFailures(t *testing.T) {
 	ctx := context.Background()
 	// Too many terms: dim 7 > min(4, 5).
 	w, _ := subspace.New(suite.Random(4, 5, 7, 1).Basis, subspace.Options{})
-	if _, err := (&AllPoints{}).Points(ctx, w); !errors.Is(err, ErrTooManyTerms) {
+	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrTooManyTerms) {
 		t.Errorf("r > min(m, n): %v", err)
 	}
 	// span{I, J} embedded in the top-left 2×2 block of 3×3 matrices: column
@@ -196,7 +197,7 @@ func TestPointsFailures(t *testing.T) {
 		0, -1, 0, 1, 0, 0, 0, 0, 0,
 	}}
 	w, _ = subspace.New(b, subspace.Options{})
-	if _, err := (&AllPoints{}).Points(ctx, w); !errors.Is(err, ErrComplex) {
+	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrComplex) {
 		t.Errorf("no real points: %v", err)
 	}
 	// span{I, diag(J, 1)}: the column space is all of R³ > dim W = 2.
@@ -205,7 +206,7 @@ func TestPointsFailures(t *testing.T) {
 		0, -1, 0, 1, 0, 0, 0, 0, 1,
 	}}
 	w, _ = subspace.New(b, subspace.Options{})
-	if _, err := (&AllPoints{}).Points(ctx, w); !errors.Is(err, ErrNotSpanned) {
+	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrNotSpanned) {
 		t.Errorf("column space too large: %v", err)
 	}
 	// Noise: the planted span perturbed by 1e-3 contains no rank-one matrix.
@@ -215,16 +216,16 @@ func TestPointsFailures(t *testing.T) {
 		nb.Data[i] += 1e-3 * rng.NormFloat64()
 	}
 	w, _ = subspace.New(nb, subspace.Options{})
-	if _, err := (&AllPoints{}).Points(ctx, w); !errors.Is(err, ErrNotSpanned) {
+	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrNotSpanned) {
 		t.Errorf("noisy span, strict: %v", err)
 	}
-	pts, err := (&AllPoints{Noisy: true}).Points(ctx, w)
-	if !errors.Is(err, ErrNotRankOne) {
+	pts, err := (&rankone.AllPoints{Noisy: true}).Points(ctx, w)
+	if !errors.Is(err, rankone.ErrNotRankOne) {
 		t.Errorf("noisy span, Noisy: %v", err)
 	}
 	for _, p := range pts {
-		if u, _ := Verify(w, p.X, p.Y); u != p.Upper {
-			t.Errorf("point Upper %v ≠ Verify %v", p.Upper, u)
+		if u, _ := rankone.Verify(w, p.X, p.Y); u != p.Upper {
+			t.Errorf("point Upper %v ≠ rankone.Verify %v", p.Upper, u)
 		}
 	}
 	// Nearly parallel components (angle 1e-12): either an error, or points
@@ -233,7 +234,7 @@ func TestPointsFailures(t *testing.T) {
 	a1 := append([]float64(nil), a0...)
 	a1[0] += 1e-12
 	w, _ = subspace.New(spanOf(rng, [][]float64{a0, a1, gauss(rng, 4)}, [][]float64{gauss(rng, 4), gauss(rng, 4), gauss(rng, 4)}), subspace.Options{})
-	pts, err = (&AllPoints{}).Points(ctx, w)
+	pts, err = (&rankone.AllPoints{}).Points(ctx, w)
 	if err == nil {
 		for _, p := range pts {
 			if p.Upper > 1e-8 {

@@ -1,8 +1,9 @@
-package rankone
+package rankone_test
 
 import (
 	"context"
 	"errors"
+	"github.com/segre-lab/segre/rankone"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -29,7 +30,7 @@ func mustNew(t *testing.T, b subspace.Basis) *subspace.Subspace {
 func TestFlatteningBound(t *testing.T) {
 	for _, in := range []suite.Instance{suite.OneMatrix(4, 7, 1), suite.OneMatrix(9, 3, 2), suite.Rotated(suite.OneMatrix(5, 5, 3), 1)} {
 		w := mustNew(t, in.Basis)
-		hu, lo := FlatteningBound(w)
+		hu, lo := rankone.FlatteningBound(w)
 		hstar := 1 - in.Optimum*in.Optimum
 		if hu < hstar-1e-14 || hu > hstar+1e-12 {
 			t.Errorf("%s: hUpper = %.17g, h* = %.17g", in.Name, hu, hstar)
@@ -44,7 +45,7 @@ func TestFlatteningBound(t *testing.T) {
 	for trial := 0; trial < 5; trial++ {
 		in := suite.Random(3+trial, 4, 2, uint64(trial))
 		w := mustNew(t, in.Basis)
-		hu, _ := FlatteningBound(w)
+		hu, _ := rankone.FlatteningBound(w)
 		t1, _, t2, _ := w.PartialTraces()
 		var es mat.EigenSym
 		ref := 1.0
@@ -56,7 +57,7 @@ func TestFlatteningBound(t *testing.T) {
 		if hu < ref || hu > ref+1e-12 {
 			t.Errorf("hUpper %.17g, gonum λmax %.17g", hu, ref)
 		}
-		res, _ := (&MultiStart{Starts: 8}).Search(context.Background(), w)
+		res, _ := (&rankone.MultiStart{Starts: 8}).Search(context.Background(), w)
 		if res.Value > hu {
 			t.Errorf("found h = %v above the bound %v", res.Value, hu)
 		}
@@ -64,7 +65,7 @@ func TestFlatteningBound(t *testing.T) {
 	}
 }
 
-// TopEigen agrees with gonum's EigenSym (reference library) on random
+// rankone.TopEigen agrees with gonum's EigenSym (reference library) on random
 // symmetric matrices, from zero and from given starts.
 func TestTopEigen(t *testing.T) {
 	rng := rand.New(rand.NewPCG(2, 2))
@@ -79,7 +80,7 @@ func TestTopEigen(t *testing.T) {
 		es.Factorize(a, true)
 		vals := es.Values(nil)
 		x := make([]float64, n)
-		th, _ := TopEigen(symApply(a), x, 0, 50, 1e-13)
+		th, _ := rankone.TopEigen(symApply(a), x, 0, 50, 1e-13)
 		gap := 1.0
 		if n > 1 {
 			gap = vals[n-1] - vals[n-2]
@@ -96,36 +97,36 @@ func TestVerifyErrors(t *testing.T) {
 		x, y []float64
 		want error
 	}{
-		{[]float64{1, 0}, []float64{0, 1, 0}, ErrLength},
-		{[]float64{1, 0, math.NaN()}, []float64{0, 1, 0}, ErrNotFinite},
-		{[]float64{0, 0, 0}, []float64{0, 1, 0}, ErrZeroVec},
-		{[]float64{1, 0, 0}, []float64{math.Inf(1), 1, 0}, ErrNotFinite},
+		{[]float64{1, 0}, []float64{0, 1, 0}, rankone.ErrLength},
+		{[]float64{1, 0, math.NaN()}, []float64{0, 1, 0}, rankone.ErrNotFinite},
+		{[]float64{0, 0, 0}, []float64{0, 1, 0}, rankone.ErrZeroVec},
+		{[]float64{1, 0, 0}, []float64{math.Inf(1), 1, 0}, rankone.ErrNotFinite},
 	}
 	for _, c := range cases {
-		if _, err := Verify(w, c.x, c.y); !errors.Is(err, c.want) {
-			t.Errorf("Verify(%v, %v): %v, want %v", c.x, c.y, err, c.want)
+		if _, err := rankone.Verify(w, c.x, c.y); !errors.Is(err, c.want) {
+			t.Errorf("rankone.Verify(%v, %v): %v, want %v", c.x, c.y, err, c.want)
 		}
 	}
-	// Scale invariance: Verify certifies the directions (derived: d is
+	// Scale invariance: rankone.Verify certifies the directions (derived: d is
 	// homogeneous of degree 0 in x and y); powers of two are exact.
 	x, y := []float64{1, 2, 3}, []float64{0.5, -1, 0.25}
-	u1, _ := Verify(w, x, y)
+	u1, _ := rankone.Verify(w, x, y)
 	xs := []float64{0x1p-600, 0x1p-599, 3 * 0x1p-600}
-	u2, _ := Verify(w, xs, y)
+	u2, _ := rankone.Verify(w, xs, y)
 	if u1 != u2 {
-		t.Errorf("Verify not scale invariant: %v vs %v", u1, u2)
+		t.Errorf("rankone.Verify not scale invariant: %v vs %v", u1, u2)
 	}
 	// Antisymmetric 3×3, x = e1, y = e2: d² = 1 − 1/2 (derived in the family).
 	// The bound's own inflation is about γ_{mn+1}·d plus a few ulps
 	// (derived on subspace.ResidualBound): 4e-15 covers mn = 9.
-	u, _ := Verify(w, []float64{1, 0, 0}, []float64{0, 1, 0})
+	u, _ := rankone.Verify(w, []float64{1, 0, 0}, []float64{0, 1, 0})
 	if u < math.Sqrt(0.5) || u > math.Sqrt(0.5)+4e-15 {
-		t.Errorf("Verify = %.17g, want just above √½", u)
+		t.Errorf("rankone.Verify = %.17g, want just above √½", u)
 	}
 }
 
 func TestValueBounds(t *testing.T) {
-	r := Result{Upper: 0.6, Lower: 0.8 * 0.5}
+	r := rankone.Result{Upper: 0.6, Lower: 0.8 * 0.5}
 	lo, hi := r.ValueBounds()
 	// Derived: 1 − 0.36 = 0.64 and 1 − 0.16 = 0.84, rounded outwards.
 	if lo > 0.64 || lo < 0.64-1e-15 || hi < 0.84 || hi > 0.84+1e-15 {
@@ -133,13 +134,13 @@ func TestValueBounds(t *testing.T) {
 	}
 }
 
-// MultiStart finds the antisymmetric optimum from every start and
+// rankone.MultiStart finds the antisymmetric optimum from every start and
 // deduplicates: the maximisers x ⊥ y form a connected set, so distinct
 // points are many, but every one has d = √½ (derived in the family).
 func TestMultiStartPoints(t *testing.T) {
 	w := mustNew(t, suite.HurwitzRadon(2, 1).Basis)
 	// span{I}: h = (x·y)²/2, maximisers x = ±y: a single point up to sign.
-	_, pts, err := (&MultiStart{Starts: 10, Method: &ALS{}}).SearchAll(context.Background(), w)
+	_, pts, err := (&rankone.MultiStart{Starts: 10, Method: &rankone.ALS{}}).SearchAll(context.Background(), w)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -162,17 +163,31 @@ func TestMultiStartPoints(t *testing.T) {
 func TestPortfolioBudget(t *testing.T) {
 	in := suite.Planted(12, 12, 30, 5)
 	w := mustNew(t, in.Basis)
-	p := &Portfolio{Budget: 50 * time.Millisecond, Members: []Searcher{
-		&MultiStart{Starts: 1 << 20, Workers: 1}, Flattening{},
+	p := &rankone.Portfolio{Budget: 50 * time.Millisecond, Members: []rankone.Searcher{
+		&rankone.MultiStart{Starts: 1 << 20, Workers: 1}, rankone.Flattening{},
 	}}
 	res, err := p.Search(context.Background(), w)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if res.Status != LimitReached {
+	if res.Status != rankone.LimitReached {
 		t.Errorf("status %v, want limit reached (budget)", res.Status)
 	}
-	if u, _ := Verify(w, res.X, res.Y); u != res.Upper {
-		t.Errorf("Upper %v ≠ Verify %v", res.Upper, u)
+	if u, _ := rankone.Verify(w, res.X, res.Y); u != res.Upper {
+		t.Errorf("Upper %v ≠ rankone.Verify %v", res.Upper, u)
+	}
+}
+
+func dotv(a, b []float64) float64 {
+	var s float64
+	for i := range a {
+		s += a[i] * b[i]
+	}
+	return s
+}
+
+func symApply(a *mat.SymDense) func(dst, src []float64) {
+	return func(dst, src []float64) {
+		mat.NewVecDense(len(dst), dst).MulVec(a, mat.NewVecDense(len(src), src))
 	}
 }

@@ -435,3 +435,38 @@ func binomial(n, k int) int {
 	}
 	return c
 }
+
+// Sweep returns the default sweep over every family at small and medium
+// sizes (deterministic): closed forms, planted points (also noisy), spans of
+// rank-one matrices below and above min(m, n), Gaussian subspaces, the
+// critical dimension, each also rotated. With short set it returns a
+// quick subset.
+func Sweep(short bool) []Instance {
+	var out []Instance
+	add := func(in Instance) { out = append(out, in, Rotated(in, 11)) }
+	for _, in := range ClosedForms(true) {
+		add(in)
+	}
+	add(NormedAlgebraComplement(4, 1))
+	sizes := [][2]int{{4, 4}, {6, 8}, {12, 12}}
+	if short {
+		sizes = sizes[:1]
+	}
+	seeds := 3
+	if short {
+		seeds = 1
+	}
+	for _, sz := range sizes {
+		m, n := sz[0], sz[1]
+		for s := 0; s < seeds; s++ {
+			seed := uint64(s + 1)
+			add(Planted(m, n, (m*n)/4, seed))
+			add(PlantedNoisy(m, n, (m*n)/4, 1e-3, seed))
+			add(RankOneSpan(m, n, min(m, n), seed))
+			add(RankOneSpan(m, n, min(m, n)+2, seed))
+			add(Random(m, n, (m*n)/2, seed))
+			add(Boundary(m, n, seed))
+		}
+	}
+	return out
+}

@@ -1,0 +1,210 @@
+package suite
+
+import (
+	"bufio"
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// WriteJSONL writes one record per line (append-safe: concatenated files of
+// several runs or shards are again valid input for ReadJSONL).
+func WriteJSONL(w io.Writer, recs []Record) error {
+	enc := json.NewEncoder(w)
+	for _, r := range recs {
+		if err := enc.Encode(r); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// ReadJSONL reads records written by WriteJSONL; a malformed line is an
+// error naming it.
+func ReadJSONL(rd io.Reader) ([]Record, error) {
+	sc := bufio.NewScanner(rd)
+	sc.Buffer(make([]byte, 1<<16), 1<<24)
+	var out []Record
+	line := 0
+	for sc.Scan() {
+		line++
+		t := strings.TrimSpace(sc.Text())
+		if t == "" {
+			continue
+		}
+		var r Record
+		if err := json.Unmarshal([]byte(t), &r); err != nil {
+			return nil, fmt.Errorf("suite: line %d: %v", line, err)
+		}
+		out = append(out, r)
+	}
+	return out, sc.Err()
+}
+
+// Merge sorts the records of several shards or runs into sweep order
+// (instance index, then searcher name), dropping exact duplicates of the
+// same (instance, searcher) pair (the last one read wins), so that resumed
+// runs merge cleanly.
+func Merge(parts ...[]Record) []Record {
+	type key struct {
+		idx      int
+		searcher string
+	}
+	seen := map[key]int{}
+	var out []Record
+	for _, p := range parts {
+		for _, r := range p {
+			k := key{r.Index, r.Searcher}
+			if i, ok := seen[k]; ok {
+				out[i] = r
+				continue
+			}
+			seen[k] = len(out)
+			out = append(out, r)
+		}
+	}
+	sort.SliceStable(out, func(i, j int) bool {
+		if out[i].Index != out[j].Index {
+			return out[i].Index < out[j].Index
+		}
+		return out[i].Searcher < out[j].Searcher
+	})
+	return out
+}
+
+// WriteCSV writes the records as CSV with a header.
+func WriteCSV(w io.Writer, recs []Record) error {
+	cw := csv.NewWriter(w)
+	cw.Write([]string{"index", "family", "instance", "rows", "cols", "dim", "optimum", "bound", "searcher",
+		"lower", "upper", "status", "seconds", "evaluations", "success", "error"})
+	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+	for _, r := range recs {
+		opt := ""
+		if r.Optimum != nil {
+			opt = f(r.Optimum.V)
+		}
+		cw.Write([]string{strconv.Itoa(r.Index), r.Family, r.Instance, strconv.Itoa(r.Rows), strconv.Itoa(r.Cols),
+			strconv.Itoa(r.Dim), opt, f(r.Bound), r.Searcher, f(r.Lower), f(r.Upper), r.Status, f(r.Seconds),
+			strconv.Itoa(r.Evals), strconv.FormatBool(r.Success), r.Error})
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// SummaryRow aggregates one (family, size, searcher) group.
+type SummaryRow struct {
+	Family, Size, Searcher string
+	Runs                   int
+	SuccessRate            float64
+	MedianSeconds          float64
+	P90Seconds             float64
+	MedianGap              float64 // median of Upper − Lower
+}
+
+// Summary groups records by family, size (m×n, k) and searcher.
+func Summary(recs []Record) []SummaryRow {
+	type key struct{ fam, size, s string }
+	groups := map[key][]Record{}
+	var order []key
+	for _, r := range recs {
+		k := key{r.Family, fmt.Sprintf("%dx%d k%d", r.Rows, r.Cols, r.Dim), r.Searcher}
+		if _, ok := groups[k]; !ok {
+			order = append(order, k)
+		}
+		groups[k] = append(groups[k], r)
+	}
+	sort.SliceStable(order, func(i, j int) bool {
+		a, b := order[i], order[j]
+		if a.fam != b.fam {
+			return a.fam < b.fam
+		}
+		if a.size != b.size {
+			return a.size < b.size
+		}
+		return a.s < b.s
+	})
+	var out []SummaryRow
+	for _, k := range order {
+		g := groups[k]
+		var ok int
+		times, gaps := make([]float64, len(g)), make([]float64, len(g))
+		for i, r := range g {
+			if r.Success {
+				ok++
+			}
+			times[i] = r.Seconds
+			gaps[i] = r.Upper - r.Lower
+		}
+		out = append(out, SummaryRow{Family: k.fam, Size: k.size, Searcher: k.s, Runs: len(g),
+			SuccessRate: float64(ok) / float64(len(g)), MedianSeconds: quantile(times, 0.5),
+			P90Seconds: quantile(times, 0.9), MedianGap: quantile(gaps, 0.5)})
+	}
+	return out
+}
+
+func quantile(v []float64, q float64) float64 {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	if len(s) == 0 {
+		return math.NaN()
+	}
+	i := int(math.Ceil(q*float64(len(s)))) - 1
+	return s[max(0, min(i, len(s)-1))]
+}
+
+// WriteSummary writes the summary as an aligned text table.
+func WriteSummary(w io.Writer, rows []SummaryRow) error {
+	bw := bufio.NewWriter(w)
+	fmt.Fprintf(bw, "%-26s %-14s %-26s %5s %8s %11s %11s %11s\n", "family", "size", "searcher", "runs", "success", "median s", "p90 s", "median gap")
+	for _, r := range rows {
+		fmt.Fprintf(bw, "%-26s %-14s %-26s %5d %7.0f%% %11.4f %11.4f %11.3g\n", r.Family, r.Size, r.Searcher, r.Runs,
+			100*r.SuccessRate, r.MedianSeconds, r.P90Seconds, r.MedianGap)
+	}
+	return bw.Flush()
+}
+
+// Profile returns performance-profile data (Dolan & Moré, "Benchmarking
+// optimization software with performance profiles", Math. Program. 91,
+// 2002): for each searcher and each τ in taus, the fraction of instances it
+// solved (Success) in time ≤ τ × the best time of any successful searcher on
+// that instance.
+func Profile(recs []Record, taus []float64) map[string][]float64 {
+	best := map[int]float64{}
+	names := map[string]bool{}
+	instances := map[int]bool{}
+	for _, r := range recs {
+		names[r.Searcher] = true
+		instances[r.Index] = true
+		if r.Success {
+			t := math.Max(r.Seconds, 1e-9)
+			if b, ok := best[r.Index]; !ok || t < b {
+				best[r.Index] = t
+			}
+		}
+	}
+	out := map[string][]float64{}
+	for name := range names {
+		fr := make([]float64, len(taus))
+		for _, r := range recs {
+			if r.Searcher != name || !r.Success {
+				continue
+			}
+			ratio := math.Max(r.Seconds, 1e-9) / best[r.Index]
+			for i, tau := range taus {
+				if ratio <= tau {
+					fr[i]++
+				}
+			}
+		}
+		for i := range fr {
+			fr[i] /= float64(len(instances))
+		}
+		out[name] = fr
+	}
+	return out
+}
