@@ -96,6 +96,8 @@ func searchers(sweep string) []suite.Named {
 	}
 	if sweep != "planted" {
 		s = append(s, suite.Named{Name: "branch-and-bound", Searcher: &net.BranchBound{Gap: 1e-4, Workers: 1}})
+	} else {
+		s = append(s, suite.Named{Name: "portfolio", Searcher: &rankone.Portfolio{}})
 	}
 	return s
 }
