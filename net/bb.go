@@ -258,7 +258,13 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		}
 		status = rankone.GapReached
 	} else {
-		// Initial cells: each face split into 4 per coordinate.
+		// Initial cells: each face split into 4 per coordinate (2 when that
+		// would not fit); refuse sizes whose first split cannot fit.
+		per := int64(1) << (d - 1)
+		if d > 20 || int64(d)*per > int64(maxFront) {
+			return res, fmt.Errorf("%w: min(m, n) = %d needs %d cells per split, frontier limit %d", ErrTooLarge, d, int64(d)*per, maxFront)
+		}
+		deep := int64(d)*per*per <= int64(maxFront)/4
 		var init []*cell
 		for f := 0; f < d; f++ {
 			root := &cell{face: f, lo: make([]float64, d-1), hi: make([]float64, d-1)}
@@ -266,7 +272,11 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				root.lo[j], root.hi[j] = -1, 1
 			}
 			for _, c := range root.children() {
-				init = append(init, c.children()...)
+				if deep {
+					init = append(init, c.children()...)
+				} else {
+					init = append(init, c)
+				}
 			}
 		}
 		const batch = 16
