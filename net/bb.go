@@ -354,7 +354,9 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			}
 			// Next batch: pop the best cells; re-bound with the current Λ.
 			pending = pending[:0:0]
-			for len(pending) < batch*(1<<(d-1)) && len(front) > 0 {
+			// A batch holds at most 16 splits and about 4096 cells, so that a
+			// deadline is noticed promptly even for large d.
+			for len(pending) < min(batch*(1<<(d-1)), max(1<<(d-1), 4096)) && len(front) > 0 {
 				c := heap.Pop(&front).(*cell)
 				if c.lam > lam {
 					// Stale key: re-bound with the current Λ; if the cell is

@@ -95,7 +95,8 @@ func searchers(sweep string) []suite.Named {
 		{Name: "best-of-random", Searcher: &bestOfRandom{Draws: 20}},
 	}
 	if sweep != "planted" {
-		s = append(s, suite.Named{Name: "branch-and-bound", Searcher: &net.BranchBound{Gap: 1e-4, Workers: 1}})
+		s = append(s, suite.Named{Name: "branch-and-bound", Searcher: &net.BranchBound{Gap: 1e-4, Workers: 1}},
+			suite.Named{Name: "all-points", Searcher: &rankone.AllPoints{}})
 	} else {
 		s = append(s, suite.Named{Name: "portfolio", Searcher: &rankone.Portfolio{}})
 	}

@@ -81,7 +81,7 @@ func Merge(parts ...[]Record) []Record {
 func WriteCSV(w io.Writer, recs []Record) error {
 	cw := csv.NewWriter(w)
 	cw.Write([]string{"index", "family", "instance", "rows", "cols", "dim", "optimum", "bound", "searcher",
-		"lower", "upper", "status", "seconds", "evaluations", "success", "error"})
+		"lower", "upper", "status", "seconds", "evaluations", "success", "points", "error"})
 	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 	for _, r := range recs {
 		opt := ""
@@ -90,7 +90,7 @@ func WriteCSV(w io.Writer, recs []Record) error {
 		}
 		cw.Write([]string{strconv.Itoa(r.Index), r.Family, r.Instance, strconv.Itoa(r.Rows), strconv.Itoa(r.Cols),
 			strconv.Itoa(r.Dim), opt, f(r.Bound), r.Searcher, f(r.Lower), f(r.Upper), r.Status, f(r.Seconds),
-			strconv.Itoa(r.Evals), strconv.FormatBool(r.Success), r.Error})
+			strconv.Itoa(r.Evals), strconv.FormatBool(r.Success), strconv.Itoa(r.Points), r.Error})
 	}
 	cw.Flush()
 	return cw.Error()
@@ -104,6 +104,7 @@ type SummaryRow struct {
 	MedianSeconds          float64
 	P90Seconds             float64
 	MedianGap              float64 // median of Upper − Lower
+	MedianPoints           float64 // median distinct points found (-1: not reported)
 }
 
 // Summary groups records by family, size (m×n, k) and searcher.
@@ -133,7 +134,11 @@ func Summary(recs []Record) []SummaryRow {
 		g := groups[k]
 		var ok int
 		times, gaps := make([]float64, len(g)), make([]float64, len(g))
+		var pts []float64
 		for i, r := range g {
+			if r.Points >= 0 {
+				pts = append(pts, float64(r.Points))
+			}
 			if r.Success {
 				ok++
 			}
@@ -142,7 +147,10 @@ func Summary(recs []Record) []SummaryRow {
 		}
 		out = append(out, SummaryRow{Family: k.fam, Size: k.size, Searcher: k.s, Runs: len(g),
 			SuccessRate: float64(ok) / float64(len(g)), MedianSeconds: quantile(times, 0.5),
-			P90Seconds: quantile(times, 0.9), MedianGap: quantile(gaps, 0.5)})
+			P90Seconds: quantile(times, 0.9), MedianGap: quantile(gaps, 0.5), MedianPoints: -1})
+		if len(pts) > 0 {
+			out[len(out)-1].MedianPoints = quantile(pts, 0.5)
+		}
 	}
 	return out
 }
@@ -160,10 +168,14 @@ func quantile(v []float64, q float64) float64 {
 // WriteSummary writes the summary as an aligned text table.
 func WriteSummary(w io.Writer, rows []SummaryRow) error {
 	bw := bufio.NewWriter(w)
-	fmt.Fprintf(bw, "%-26s %-14s %-26s %5s %8s %11s %11s %11s\n", "family", "size", "searcher", "runs", "success", "median s", "p90 s", "median gap")
+	fmt.Fprintf(bw, "%-26s %-14s %-18s %5s %8s %9s %9s %10s %6s\n", "family", "size", "searcher", "runs", "success", "median s", "p90 s", "med. gap", "points")
 	for _, r := range rows {
-		fmt.Fprintf(bw, "%-26s %-14s %-26s %5d %7.0f%% %11.4f %11.4f %11.3g\n", r.Family, r.Size, r.Searcher, r.Runs,
-			100*r.SuccessRate, r.MedianSeconds, r.P90Seconds, r.MedianGap)
+		pts := "-"
+		if r.MedianPoints >= 0 {
+			pts = strconv.FormatFloat(r.MedianPoints, 'g', 4, 64)
+		}
+		fmt.Fprintf(bw, "%-26s %-14s %-18s %5d %7.0f%% %9.4f %9.4f %10.3g %6s\n", r.Family, r.Size, r.Searcher, r.Runs,
+			100*r.SuccessRate, r.MedianSeconds, r.P90Seconds, r.MedianGap, pts)
 	}
 	return bw.Flush()
 }

@@ -33,6 +33,10 @@ type Record struct {
 	Seconds  float64 `json:"seconds"`
 	Evals    int     `json:"evaluations"`
 	Success  bool    `json:"success"`
+	// Points counts the distinct certified rank-one points found (Upper ≤
+	// Tol), for searchers that report all their points (a SearchAll method
+	// like rankone.MultiStart's, or rankone.AllPoints); -1 otherwise.
+	Points int `json:"points"`
 	Error    string  `json:"error,omitempty"`
 }
 
@@ -114,7 +118,23 @@ func Run(ctx context.Context, searchers []Named, instances []Instance, set Setti
 				rctx, cancel = context.WithTimeout(ctx, set.Budget)
 			}
 			t0 := time.Now()
-			res, serr := s.Searcher.Search(rctx, w)
+			var res rankone.Result
+			var serr error
+			r.Points = -1
+			switch ps := s.Searcher.(type) {
+			case interface {
+				SearchAll(context.Context, *subspace.Subspace) (rankone.Result, []rankone.Point, error)
+			}:
+				var pts []rankone.Point
+				res, pts, serr = ps.SearchAll(rctx, w)
+				r.Points = countPoints(pts, tol)
+			case *rankone.AllPoints:
+				pts, _ := ps.Points(rctx, w)
+				res, serr = ps.Search(rctx, w)
+				r.Points = countPoints(pts, tol)
+			default:
+				res, serr = s.Searcher.Search(rctx, w)
+			}
 			r.Seconds = time.Since(t0).Seconds()
 			cancel()
 			if serr != nil && ctx.Err() != nil {
@@ -148,4 +168,14 @@ func Run(ctx context.Context, searchers []Named, instances []Instance, set Setti
 		}
 	}
 	return nil
+}
+
+func countPoints(pts []rankone.Point, tol float64) int {
+	c := 0
+	for _, p := range pts {
+		if p.Upper <= tol {
+			c++
+		}
+	}
+	return c
 }
