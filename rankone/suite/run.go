@@ -36,8 +36,8 @@ type Record struct {
 	// Points counts the distinct certified rank-one points found (Upper ≤
 	// Tol), for searchers that report all their points (a SearchAll method
 	// like rankone.MultiStart's, or rankone.AllPoints); -1 otherwise.
-	Points int `json:"points"`
-	Error    string  `json:"error,omitempty"`
+	Points int    `json:"points"`
+	Error  string `json:"error,omitempty"`
 }
 
 // Number is a float64 that may be absent (JSON null) for unknown values.
