@@ -190,7 +190,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	if l == nil {
 		l = &rankone.TrustRegion{}
 	}
-	gate := newGate(b.Progress, begin)
+	gate := rankone.NewThrottle(b.Progress)
 	sd := newSide(w)
 	d := sd.d
 	res := rankone.Result{FoundBy: b.Name(), Starts: 1}
@@ -339,7 +339,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				}
 				lam = top
 			}
-			gate.report(rankone.Progress{Searcher: b.Name(), Nodes: nodes, Frontier: len(front),
+			gate.Report(rankone.Progress{Searcher: b.Name(), Nodes: nodes, Frontier: len(front),
 				Upper: res.Upper, Lower: lowerFromH(lam)})
 			if done(lam, hLow, gap, res.Upper, b.AbsGap) {
 				status = rankone.GapReached

@@ -80,7 +80,7 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 	var wg sync.WaitGroup
 	var mu sync.Mutex
 	doneChunks := 0
-	gate := newGate(e.Progress, begin)
+	gate := rankone.NewThrottle(e.Progress)
 	for range workers {
 		wg.Add(1)
 		go func() {
@@ -105,7 +105,7 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 				parts[ci] = pt
 				mu.Lock()
 				doneChunks++
-				gate.report(rankone.Progress{Searcher: e.Name(), Nodes: doneChunks * chunk, Frontier: int(total) - doneChunks*chunk, Upper: 1})
+				gate.Report(rankone.Progress{Searcher: e.Name(), Nodes: doneChunks * chunk, Frontier: int(total) - doneChunks*chunk, Upper: 1})
 				mu.Unlock()
 			}
 		}()
@@ -174,28 +174,4 @@ func unitVec(n int) []float64 {
 	v := make([]float64, n)
 	v[0] = 1
 	return v
-}
-
-// progressGate calls a progress callback at most every 200 ms.
-type progressGate struct {
-	fn    func(rankone.Progress)
-	start time.Time
-	last  time.Time
-}
-
-func newGate(fn func(rankone.Progress), start time.Time) *progressGate {
-	return &progressGate{fn: fn, start: start, last: start}
-}
-
-func (g *progressGate) report(p rankone.Progress) {
-	if g.fn == nil {
-		return
-	}
-	now := time.Now()
-	if now.Sub(g.last) < 200*time.Millisecond {
-		return
-	}
-	g.last = now
-	p.Elapsed = now.Sub(g.start)
-	g.fn(p)
 }

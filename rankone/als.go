@@ -44,7 +44,7 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 	o := &oracle{w: w}
 	maxIter := orDefault(a.MaxIter, 500)
 	tol := orDefaultF(a.Tol, 1e-12)
-	gate := newGate(a.Progress)
+	gate := NewThrottle(a.Progress)
 	gx, hy := make([]float64, len(x)), make([]float64, len(y))
 	st := Stats{Status: LimitReached}
 	sl := stall{patience: 20}
@@ -67,7 +67,7 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 		h, _ = TopEigen(gop.Apply, x, 0, 0, 1e-14)
 		g := math.Hypot(ggx, ggy)
 		st.Gradient = g
-		gate.report(Progress{Searcher: a.Name(), Iteration: it + 1, Value: h, Upper: 1})
+		gate.Report(Progress{Searcher: a.Name(), Iteration: it + 1, Value: h, Upper: 1})
 		if g <= tol {
 			st.Status = Converged
 			break

@@ -1,7 +1,6 @@
 package rankone
 
 import (
-	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/eigen"
@@ -20,28 +19,8 @@ func TopEigen(apply func(dst, src []float64), x []float64, steps, restarts int, 
 	return eigen.Top(apply, x, steps, restarts, tol)
 }
 
-func dotv(a, b []float64) float64 {
-	return blas64.Dot(blas64.Vector{N: len(a), Data: a, Inc: 1}, blas64.Vector{N: len(b), Data: b, Inc: 1})
-}
-
-func norm(a []float64) float64 {
-	return blas64.Nrm2(blas64.Vector{N: len(a), Data: a, Inc: 1})
-}
-
-func axpy(alpha float64, x, y []float64) {
-	blas64.Axpy(alpha, blas64.Vector{N: len(x), Data: x, Inc: 1}, blas64.Vector{N: len(y), Data: y, Inc: 1})
-}
-
-func scale(x []float64, a float64) {
-	for i := range x {
-		x[i] *= a
-	}
-}
-
-// symApply returns the operator of a dense symmetric matrix.
-func symApply(a *mat.SymDense) func(dst, src []float64) {
-	raw := a.RawSymmetric()
-	return func(dst, src []float64) {
-		blas64.Symv(1, raw, blas64.Vector{N: len(src), Data: src, Inc: 1}, 0, blas64.Vector{N: len(dst), Data: dst, Inc: 1})
-	}
-}
+func dotv(a, b []float64) float64                       { return eigen.Dot(a, b) }
+func norm(a []float64) float64                          { return eigen.Norm(a) }
+func axpy(alpha float64, x, y []float64)                { eigen.Axpy(alpha, x, y) }
+func scale(x []float64, a float64)                      { eigen.Scale(x, a) }
+func symApply(a *mat.SymDense) func(dst, src []float64) { return eigen.SymApply(a) }

@@ -44,19 +44,23 @@ func searchLocal(ctx context.Context, w *subspace.Subspace, l Local) (Result, er
 	return res, err
 }
 
-// progressGate calls a progress callback at most every 200 ms.
-type progressGate struct {
+// Throttle passes Progress reports to a callback at most every 200 ms,
+// filling in Elapsed. A nil callback makes it a no-op. Strategies (ours and
+// users') share it so that progress is never the algorithm's business.
+type Throttle struct {
 	fn    func(Progress)
 	start time.Time
 	last  time.Time
 }
 
-func newGate(fn func(Progress)) *progressGate {
+// NewThrottle returns a Throttle for fn, timing from now.
+func NewThrottle(fn func(Progress)) *Throttle {
 	now := time.Now()
-	return &progressGate{fn: fn, start: now, last: now}
+	return &Throttle{fn: fn, start: now, last: now}
 }
 
-func (g *progressGate) report(p Progress) {
+// Report calls the callback if 200 ms have passed since the last call.
+func (g *Throttle) Report(p Progress) {
 	if g == nil || g.fn == nil {
 		return
 	}

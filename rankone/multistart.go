@@ -87,7 +87,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 	var wg sync.WaitGroup
 	var mu sync.Mutex
 	best := 1.0
-	gate := newGate(ms.Progress)
+	gate := NewThrottle(ms.Progress)
 	done := 0
 	for range workers {
 		wg.Add(1)
@@ -106,7 +106,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 				mu.Lock()
 				done++
 				best = math.Min(best, u)
-				gate.report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
+				gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
 				mu.Unlock()
 			}
 		}()

@@ -80,7 +80,7 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 	entries := make([]Entry, len(members))
 	var wg sync.WaitGroup
 	var mu sync.Mutex
-	gate := newGate(p.Progress)
+	gate := NewThrottle(p.Progress)
 	bestU, bestL := 1.0, 0.0
 	for i, s := range members {
 		wg.Add(1)
@@ -95,7 +95,7 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 			if r.Lower > bestL {
 				bestL = r.Lower
 			}
-			gate.report(Progress{Searcher: p.Name(), Upper: bestU, Lower: bestL})
+			gate.Report(Progress{Searcher: p.Name(), Upper: bestU, Lower: bestL})
 			mu.Unlock()
 		}()
 	}

@@ -43,7 +43,7 @@ func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64
 	o := &oracle{w: w}
 	maxIter := orDefault(p.MaxIter, 5000)
 	tol := orDefaultF(p.Tol, 1e-12)
-	gate := newGate(p.Progress)
+	gate := NewThrottle(p.Progress)
 	gx, gy := make([]float64, len(x)), make([]float64, len(y))
 	st := Stats{Status: LimitReached}
 	sl := stall{patience: 50}
@@ -77,7 +77,7 @@ func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64
 		scale(y, 1/ny)
 		g := math.Hypot(ggx, ggy)
 		st.Gradient = g
-		gate.report(Progress{Searcher: p.Name(), Iteration: it + 1, Value: h, Upper: 1})
+		gate.Report(Progress{Searcher: p.Name(), Iteration: it + 1, Value: h, Upper: 1})
 		if g <= tol {
 			st.Status = Converged
 			break

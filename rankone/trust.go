@@ -133,7 +133,7 @@ func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []f
 	maxIter := orDefault(t.MaxIter, 200)
 	maxInner := orDefault(t.MaxInner, min(m+n, 50))
 	tol := orDefaultF(t.Tol, 1e-12)
-	gate := newGate(t.Progress)
+	gate := NewThrottle(t.Progress)
 	const deltaMax = 2.0
 	delta := deltaMax / 8
 
@@ -157,7 +157,7 @@ func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []f
 		gn := math.Sqrt(dotv(cur.gx, cur.gx) + dotv(cur.gy, cur.gy))
 		st.Gradient = gn
 		st.Value = cur.h
-		gate.report(Progress{Searcher: t.Name(), Iteration: it, Value: cur.h, Upper: 1})
+		gate.Report(Progress{Searcher: t.Name(), Iteration: it, Value: cur.h, Upper: 1})
 		if gn <= tol {
 			st.Status = Converged
 			break

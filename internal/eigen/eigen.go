@@ -120,6 +120,18 @@ func Top(apply func(dst, src []float64), x []float64, steps, restarts int, tol f
 	return theta, calls
 }
 
+// Dot returns aᵀb.
+func Dot(a, b []float64) float64 { return dotv(a, b) }
+
+// Norm returns ‖a‖₂.
+func Norm(a []float64) float64 { return norm(a) }
+
+// Axpy sets y += alpha·x.
+func Axpy(alpha float64, x, y []float64) { axpy(alpha, x, y) }
+
+// Scale sets x *= a.
+func Scale(x []float64, a float64) { scale(x, a) }
+
 func dotv(a, b []float64) float64 {
 	return blas64.Dot(blas64.Vector{N: len(a), Data: a, Inc: 1}, blas64.Vector{N: len(b), Data: b, Inc: 1})
 }
