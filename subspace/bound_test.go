@@ -145,3 +145,22 @@ func norm(v []float64) float64 {
 	}
 	return math.Sqrt(s)
 }
+
+// Overflowing inputs give +Inf (nothing proved), never a panic or a NaN.
+func TestResidualBoundOverflow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 7))
+	for _, r := range []int{2, 10} { // stores W, then W⊥
+		w, err := New(randBasis(rng, r, 3, 4), Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		x := []float64{1e300, -1e300, 1e300}
+		y := []float64{1e300, 1, 2, 3}
+		if ub := w.ResidualBound(x, y); !math.IsInf(ub, 1) {
+			t.Errorf("r=%d: overflowing input gave %v, want +Inf", r, ub)
+		}
+		if _, up := w.MaxEigH(x, make([]float64, 4)); !(up >= 0) {
+			t.Errorf("r=%d: MaxEigH bound %v", r, up)
+		}
+	}
+}

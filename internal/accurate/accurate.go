@@ -56,8 +56,14 @@ func Down(v float64) float64 { return math.Nextafter(v, math.Inf(-1)) }
 // ops roundings on nonnegative data): E ≤ v/(1−γ_ops) ≤ v·(1+2γ_ops), each
 // operation of the bound itself rounded upwards (AddUp, MulUp), plus the
 // underflow slack.
+//
+// A NaN v (an evaluation that broke down, e.g. by overflow) gives +Inf, the
+// only safe upper bound. It panics if v < 0.
 func UpperRel(v float64, ops int) float64 {
-	if v < 0 || math.IsNaN(v) {
+	if math.IsNaN(v) {
+		return math.Inf(1)
+	}
+	if v < 0 {
 		panic("accurate: UpperRel of a negative value")
 	}
 	g := Gamma(ops)
@@ -68,8 +74,13 @@ func UpperRel(v float64, ops int) float64 {
 // LowerRel returns a lower bound (≥ 0) on a nonnegative exact quantity E with
 // |v − E| ≤ γ_ops·E: E ≥ v/(1+γ_ops) ≥ v·(1−γ_ops), rounded downwards, less
 // the underflow slack.
+//
+// A NaN v gives 0, the only safe lower bound. It panics if v < 0.
 func LowerRel(v float64, ops int) float64 {
-	if v < 0 || math.IsNaN(v) {
+	if math.IsNaN(v) {
+		return 0
+	}
+	if v < 0 {
 		panic("accurate: LowerRel of a negative value")
 	}
 	g := Gamma(ops)
