@@ -245,6 +245,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	nodes := 0
 	maxPruned := 0.0
 	status := rankone.LimitReached
+	why := "" // why a search that did not reach its gap stopped
 	if d == 1 {
 		// S^0 is the point ±1: s(1)² is the exact answer, no cells needed.
 		c := &cell{face: 0}
@@ -346,10 +347,15 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				break
 			}
 			if ctx.Err() != nil {
-				status = rankone.Cancelled
+				status, why = rankone.Cancelled, "deadline or cancellation"
 				break
 			}
-			if nodes >= maxNodes || len(front) >= maxFront {
+			if nodes >= maxNodes {
+				why = "node limit"
+				break
+			}
+			if len(front) >= maxFront {
+				why = "frontier limit"
 				break
 			}
 			// Next batch: pop the best cells; re-bound with the current Λ.
@@ -389,6 +395,9 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	if lo := lowerFromH(lam); lo > 0 {
 		res.Lower = lo
 		res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells)", nodes)
+		if why != "" {
+			res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells; stopped at the %s)", nodes, why)
+		}
 	}
 	res.Elapsed = time.Since(begin)
 	if err := ctx.Err(); err != nil {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"github.com/segre-lab/segre/rankone"
@@ -210,6 +211,9 @@ func TestCancelledAndLimits(t *testing.T) {
 	r, err := (&BranchBound{MaxFrontier: 50}).Search(context.Background(), w)
 	if err != nil || r.Status != rankone.LimitReached {
 		t.Errorf("frontier cap: err %v status %v", err, r.Status)
+	}
+	if r.Lower > 0 && !strings.Contains(r.LowerBy, "frontier limit") {
+		t.Errorf("frontier cap not reported: %q", r.LowerBy)
 	}
 	if _, err := (&Exhaustive{Epsilon: 1e-3, MaxPoints: 1000}).Search(context.Background(), w); err == nil {
 		t.Error("oversized net accepted")
