@@ -296,3 +296,37 @@ func (w *Subspace) maxEig(op *Operator, u, vec []float64) (est, upper float64) {
 	sub := accurate.Down(accurate.Down(sigLow*sigLow) / accurate.Up(1+w.eta))
 	return est, math.Max(0, accurate.Up(uu-math.Max(sub, 0)))
 }
+
+// ProjectorBound returns a float matrix P̂ (mn×mn) and δ ≥ 0 with
+// P_W ⪯ P̂ + δI in exact arithmetic for the stored subspace, for
+// certificates that need the whole projector (sum-of-squares bounds). It
+// panics if mn > 8192 (the matrix would not be small).
+//
+// Derivation. W stored (rows S, Gram I + E, ‖E‖ ≤ η): P_W = Sᵀ(SSᵀ)⁻¹S ⪯
+// SᵀS/(1−η) = SᵀS + (η/(1−η))SᵀS, and ‖SᵀS‖ = ‖SSᵀ‖ ≤ 1 + η; the float
+// P̂ = fl(SᵀS) errs entrywise by γ_s|S|ᵀ|S|, of norm ≤ γ_s‖S‖_F². W⊥ stored:
+// P_W = I − P_{W⊥} ⪯ I − SᵀS/(1+η) ⪯ I − SᵀS + ηI (as ‖SᵀS‖ ≤ 1 + η), with
+// P̂ = I − fl(SᵀS), whose diagonal rounding adds 2u·max|P̂_ii|.
+func (w *Subspace) ProjectorBound() (*mat.SymDense, float64) {
+	L := w.m * w.n
+	if L > 8192 {
+		panic("subspace: ProjectorBound needs m·n ≤ 8192")
+	}
+	raw := blas64.Symmetric{N: L, Stride: L, Data: make([]float64, L*L), Uplo: blas.Upper}
+	if w.s > 0 {
+		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s, Cols: L, Stride: L, Data: w.q}, 0, raw)
+	}
+	if w.eta >= 0.5 {
+		return mat.NewSymDense(L, raw.Data), math.Inf(1)
+	}
+	sf := accurate.SumSqUpper(w.q)
+	delta := accurate.MulUp(accurate.Gamma(max(w.s, 1)), sf)
+	if !w.comp {
+		f := accurate.Up(w.eta / accurate.Down(1-w.eta))
+		delta = accurate.AddUp(delta, accurate.MulUp(f, accurate.AddUp(1, w.eta)))
+		return mat.NewSymDense(L, raw.Data), delta
+	}
+	delta = accurate.AddUp(delta, w.eta)
+	delta = accurate.AddUp(delta, complementDiag(raw, 1))
+	return mat.NewSymDense(L, raw.Data), delta
+}

@@ -1,0 +1,385 @@
+// Package sdp is a primal-dual interior-point solver for semidefinite
+// programs with one dense block and sparse constraint matrices:
+//
+//	primal  max ⟨C, X⟩  s.t. ⟨A_i, X⟩ = b_i (i = 1..k), X ⪰ 0,
+//	dual    min bᵀy     s.t. Z = Σ_i y_i A_i − C ⪰ 0,
+//
+// (the convention of the SDPA sparse format as CSDP reads it). It follows
+// the HKM search direction (Helmberg, Rendl, Vanderbei, Wolkowicz, SIAM J.
+// Optim. 6, 1996; Kojima, Shindoh, Hara, SIAM J. Optim. 7, 1997; Monteiro,
+// SIAM J. Optim. 7, 1997) with Mehrotra's predictor-corrector (SIAM J.
+// Optim. 2, 1992), from the infeasible start X = Z = αI, and assembles the
+// Schur complement M_ij = ⟨A_i, Z⁻¹A_jX⟩ using the sparsity of the A_i.
+package sdp
+
+import (
+	"context"
+	"errors"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Entry is one entry (I ≤ J, 0-based) of a symmetric sparse matrix: the
+// matrix has V at (I, J) and at (J, I).
+type Entry struct {
+	I, J int
+	V    float64
+}
+
+// Problem is an SDP in the form of the package doc.
+type Problem struct {
+	N int       // order of the block
+	C []Entry   // objective, upper triangle
+	A [][]Entry // constraint matrices, upper triangles
+	B []float64 // right-hand sides
+}
+
+// Status says how Solve ended.
+type Status int
+
+// Statuses.
+const (
+	Optimal Status = iota + 1
+	IterationLimit
+	Infeasible // primal or dual infeasibility detected (norms diverge)
+	Cancelled
+)
+
+// Solution is the solver's output.
+type Solution struct {
+	X, Z         *mat.SymDense
+	Y            []float64
+	Primal, Dual float64 // ⟨C, X⟩ and bᵀy
+	RelGap       float64
+	PrimalInfeas float64 // ‖b − A(X)‖/(1+‖b‖)
+	DualInfeas   float64 // ‖ΣyA − C − Z‖_F/(1+‖C‖_F)
+	Iterations   int
+	Status       Status
+}
+
+// Settings of Solve; the zero value gives the defaults.
+type Settings struct {
+	MaxIter  int     // zero means 100
+	Tol      float64 // relative gap and infeasibility target; zero means 1e-9
+	Progress func(iter int, primal, dual, gap float64)
+}
+
+// ErrShape reports an inconsistent problem.
+var ErrShape = errors.New("sdp: inconsistent problem")
+
+func dense(n int, e []Entry) *mat.SymDense {
+	s := mat.NewSymDense(n, nil)
+	for _, x := range e {
+		s.SetSym(x.I, x.J, s.At(x.I, x.J)+x.V)
+	}
+	return s
+}
+
+// inner returns ⟨A, S⟩ for sparse A and a dense matrix S (not necessarily symmetric).
+func inner(a []Entry, s mat.Matrix) float64 {
+	var t float64
+	for _, e := range a {
+		if e.I == e.J {
+			t += e.V * s.At(e.I, e.I)
+		} else {
+			t += e.V * (s.At(e.I, e.J) + s.At(e.J, e.I))
+		}
+	}
+	return t
+}
+
+// Solve solves p.
+func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
+	n, k := p.N, len(p.A)
+	if n <= 0 || len(p.B) != k {
+		return nil, ErrShape
+	}
+	for _, a := range append([][]Entry{p.C}, p.A...) {
+		for _, e := range a {
+			if e.I < 0 || e.J < e.I || e.J >= n || math.IsNaN(e.V) || math.IsInf(e.V, 0) {
+				return nil, ErrShape
+			}
+		}
+	}
+	maxIter := set.MaxIter
+	if maxIter <= 0 {
+		maxIter = 100
+	}
+	tol := set.Tol
+	if tol <= 0 {
+		tol = 1e-9
+	}
+	c := dense(n, p.C)
+	as := make([]*mat.SymDense, k)
+	for i := range p.A {
+		as[i] = dense(n, p.A[i])
+	}
+	var bn float64
+	for _, v := range p.B {
+		bn += v * v
+	}
+	bn = math.Sqrt(bn)
+	cn := mat.Norm(c, 2)
+	// Infeasible start scaled to the data.
+	alpha := math.Max(10, math.Sqrt(float64(n))*math.Max(bn, cn))
+	x, z := mat.NewSymDense(n, nil), mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		x.SetSym(i, i, alpha)
+		z.SetSym(i, i, alpha)
+	}
+	y := make([]float64, k)
+	sol := &Solution{Status: IterationLimit}
+	var best *Solution // the iterate with the smallest worst measure
+	measure := func(s *Solution) float64 { return math.Max(s.RelGap, math.Max(s.PrimalInfeas, s.DualInfeas)) }
+	aOp := func(s mat.Matrix) []float64 {
+		out := make([]float64, k)
+		for i := range p.A {
+			out[i] = inner(p.A[i], s)
+		}
+		return out
+	}
+	atOp := func(v []float64) *mat.SymDense {
+		s := mat.NewSymDense(n, nil)
+		for i := range p.A {
+			for _, e := range p.A[i] {
+				s.SetSym(e.I, e.J, s.At(e.I, e.J)+v[i]*e.V)
+			}
+		}
+		return s
+	}
+	for it := 0; it < maxIter; it++ {
+		if err := ctx.Err(); err != nil {
+			sol.Status = Cancelled
+			fill(sol, p, c, x, y, z, it, bn, cn)
+			return sol, err
+		}
+		// Residuals: rp = b − A(X), Rd = ΣyA − C − Z.
+		ax := aOp(x)
+		rp := make([]float64, k)
+		for i := range rp {
+			rp[i] = p.B[i] - ax[i]
+		}
+		rd := atOp(y)
+		subSym(rd, c)
+		subSym(rd, z)
+		fill(sol, p, c, x, y, z, it, bn, cn)
+		if set.Progress != nil {
+			set.Progress(it, sol.Primal, sol.Dual, sol.RelGap)
+		}
+		if measure(sol) <= tol {
+			sol.Status = Optimal
+			return sol, nil
+		}
+		if best == nil || measure(sol) < measure(best) {
+			cp := *sol
+			best = &cp
+		} else if measure(best) <= 1e3*tol && measure(sol) > 10*measure(best) {
+			// Past the attainable accuracy the iterates degrade: return the best.
+			best.Status = Optimal
+			if measure(best) > 10*tol {
+				best.Status = IterationLimit
+			}
+			return best, nil
+		}
+		if mat.Norm(x, 2) > 1e12*(1+alpha) || mat.Norm(z, 2) > 1e12*(1+alpha) {
+			sol.Status = Infeasible
+			return sol, nil
+		}
+		mu := trace(x, z) / float64(n)
+		var zch mat.Cholesky
+		if !zch.Factorize(z) {
+			sol.Status = Infeasible
+			return sol, nil
+		}
+		var zinv mat.SymDense
+		zch.InverseTo(&zinv)
+		// Schur complement M_ij = tr(A_i Z⁻¹ A_j X), symmetric positive
+		// definite (tr(A_iZ⁻¹A_jX) = tr(A_jZ⁻¹A_iX) by transposition and
+		// cyclicity). Z⁻¹A_jX is formed from the sparse A_j.
+		m := mat.NewSymDense(k, nil)
+		g := mat.NewDense(n, n, nil)
+		za := mat.NewDense(n, n, nil)
+		for j := 0; j < k; j++ {
+			za.Zero()
+			for _, e := range p.A[j] { // columns of Z⁻¹A_j
+				for r := 0; r < n; r++ {
+					za.Set(r, e.J, za.At(r, e.J)+zinv.At(r, e.I)*e.V)
+					if e.I != e.J {
+						za.Set(r, e.I, za.At(r, e.I)+zinv.At(r, e.J)*e.V)
+					}
+				}
+			}
+			g.Mul(za, x)
+			for i := 0; i <= j; i++ {
+				m.SetSym(i, j, inner(p.A[i], g))
+			}
+		}
+		var mch mat.Cholesky
+		if !mch.Factorize(m) {
+			sol.Status = Infeasible
+			return sol, nil
+		}
+		// direction solves for a given target and corrector term.
+		direction := func(sigmaMu float64, corr *mat.Dense) (*mat.SymDense, []float64, *mat.SymDense) {
+			// R = σμZ⁻¹ − X − Z⁻¹ Rd X − corr  (ΔX = R − Z⁻¹ AᵀΔy X)
+			var r mat.Dense
+			r.Mul(&zinv, rd)
+			r.Mul(&r, x)
+			r.Scale(-1, &r)
+			r.Sub(&r, x)
+			var sz mat.Dense
+			sz.Scale(sigmaMu, &zinv)
+			r.Add(&r, &sz)
+			if corr != nil {
+				r.Sub(&r, corr)
+			}
+			rhs := make([]float64, k)
+			for i := range rhs {
+				rhs[i] = traceProd(as[i], &r) - rp[i]
+			}
+			dyv := mat.NewVecDense(k, nil)
+			if err := mch.SolveVecTo(dyv, mat.NewVecDense(k, rhs)); err != nil {
+				return nil, nil, nil
+			}
+			dy := dyv.RawVector().Data
+			dz := atOp(dy)
+			dz.AddSym(dz, rd)
+			var dxf mat.Dense
+			dxf.Mul(&zinv, dz)
+			dxf.Mul(&dxf, x)
+			dxf.Sub(&r, &dxf)
+			dx := mat.NewSymDense(n, nil)
+			for i := 0; i < n; i++ {
+				for j := i; j < n; j++ {
+					dx.SetSym(i, j, (dxf.At(i, j)+dxf.At(j, i))/2)
+				}
+			}
+			return dx, dy, dz
+		}
+		dxa, _, dza := direction(0, nil)
+		if dxa == nil {
+			sol.Status = Infeasible
+			return sol, nil
+		}
+		ap, ad := maxStep(x, dxa), maxStep(z, dza)
+		var xa, zaff mat.SymDense
+		xa.AddSym(x, scaled(dxa, ap))
+		zaff.AddSym(z, scaled(dza, ad))
+		muAff := trace(&xa, &zaff) / float64(n)
+		sigma := math.Pow(muAff/mu, 3)
+		sigma = math.Min(1, math.Max(sigma, 0))
+		var corr mat.Dense
+		corr.Mul(&zinv, dza)
+		corr.Mul(&corr, dxa)
+		dx, dy, dz := direction(sigma*mu, &corr)
+		if dx == nil {
+			sol.Status = Infeasible
+			return sol, nil
+		}
+		ap = math.Min(1, 0.95*maxStep(x, dx))
+		ad = math.Min(1, 0.95*maxStep(z, dz))
+		x.AddSym(x, scaled(dx, ap))
+		z.AddSym(z, scaled(dz, ad))
+		for i := range y {
+			y[i] += ad * dy[i]
+		}
+	}
+	fill(sol, p, c, x, y, z, maxIter, bn, cn)
+	return sol, nil
+}
+
+// subSym sets a = a − b.
+func subSym(a, b *mat.SymDense) {
+	n := a.SymmetricDim()
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			a.SetSym(i, j, a.At(i, j)-b.At(i, j))
+		}
+	}
+}
+
+func scaled(a *mat.SymDense, s float64) *mat.SymDense {
+	var o mat.SymDense
+	o.ScaleSym(s, a)
+	return &o
+}
+
+func trace(a, b mat.Matrix) float64 {
+	r, _ := a.Dims()
+	var t float64
+	for i := 0; i < r; i++ {
+		for j := 0; j < r; j++ {
+			t += a.At(i, j) * b.At(j, i)
+		}
+	}
+	return t
+}
+
+// traceProd returns tr(A·G) = Σ_ij A_ij G_ji.
+func traceProd(a *mat.SymDense, g mat.Matrix) float64 { return trace(a, g) }
+
+// maxStep returns the largest α (capped at 1e6) with S + αD ⪰ 0 for S ≻ 0:
+// 1/λmax(−L⁻¹DL⁻ᵀ) with S = LLᵀ.
+func maxStep(s, d *mat.SymDense) float64 {
+	var ch mat.Cholesky
+	if !ch.Factorize(s) {
+		return 0
+	}
+	var l mat.TriDense
+	ch.LTo(&l)
+	n := s.SymmetricDim()
+	var li mat.TriDense
+	if err := li.InverseTri(&l); err != nil {
+		return 0
+	}
+	var t mat.Dense
+	t.Mul(&li, d)
+	t.Mul(&t, li.T())
+	ts := mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			ts.SetSym(i, j, -(t.At(i, j)+t.At(j, i))/2)
+		}
+	}
+	var es mat.EigenSym
+	if !es.Factorize(ts, false) {
+		return 0
+	}
+	v := es.Values(nil)
+	top := v[len(v)-1]
+	if top <= 1e-12 {
+		return 1e6
+	}
+	return 1 / top
+}
+
+func fill(sol *Solution, p Problem, c *mat.SymDense, x *mat.SymDense, y []float64, z *mat.SymDense, it int, bn, cn float64) {
+	n := p.N
+	sol.X = mat.NewSymDense(n, append([]float64(nil), x.RawSymmetric().Data...))
+	sol.Z = mat.NewSymDense(n, append([]float64(nil), z.RawSymmetric().Data...))
+	sol.Y = append([]float64(nil), y...)
+	sol.Primal = traceProd(c, x)
+	var d float64
+	for i, v := range p.B {
+		d += v * y[i]
+	}
+	sol.Dual = d
+	sol.RelGap = math.Abs(sol.Primal-sol.Dual) / (1 + math.Abs(sol.Primal) + math.Abs(sol.Dual))
+	var rp float64
+	for i := range p.A {
+		r := p.B[i] - inner(p.A[i], x)
+		rp += r * r
+	}
+	sol.PrimalInfeas = math.Sqrt(rp) / (1 + bn)
+	rd := mat.NewSymDense(n, nil)
+	for i := range p.A {
+		for _, e := range p.A[i] {
+			rd.SetSym(e.I, e.J, rd.At(e.I, e.J)+y[i]*e.V)
+		}
+	}
+	subSym(rd, c)
+	subSym(rd, z)
+	sol.DualInfeas = mat.Norm(rd, 2) / (1 + cn)
+	sol.Iterations = it
+}

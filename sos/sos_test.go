@@ -1,0 +1,116 @@
+package sos
+
+import (
+	"context"
+	"errors"
+	"math"
+	"testing"
+
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/rankone/suite"
+	"github.com/segre-lab/segre/subspace"
+)
+
+func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace {
+	t.Helper()
+	w, err := subspace.New(in.Basis, subspace.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return w
+}
+
+// Level one is exact on the antisymmetric subspace (h* = 1/2, with the
+// certificate ½(x·y)²: derived, P + K for K the T-antisymmetric part makes
+// the form constant) and on the normed-algebra spans and complements
+// (constant biquadratic forms, derived in the suite).
+func TestExactCases(t *testing.T) {
+	for _, in := range []suite.Instance{suite.Antisymmetric(3), suite.HurwitzRadon(2, 2), suite.NormedAlgebraComplement(2, 1), suite.HurwitzRadon(4, 4)} {
+		w := mustNew(t, in)
+		r, err := (&Bound{}).Search(context.Background(), w)
+		if err != nil {
+			t.Fatalf("%s: %v", in.Name, err)
+		}
+		// The SDP is solved to about 1e-9 relative; the certified bound is
+		// then within that of h* (tolerance 1e-7 on d*, from dd/dh = 1/(2d)).
+		if r.Lower > in.Optimum || r.Lower < in.Optimum-1e-7 {
+			t.Errorf("%s: Lower %.12f, d* %.12f", in.Name, r.Lower, in.Optimum)
+		}
+		if r.Upper < in.Optimum-1e-12 || r.Upper > in.Optimum+1e-9 {
+			t.Errorf("%s: Upper %.12f, d* %.12f", in.Name, r.Upper, in.Optimum)
+		}
+	}
+}
+
+// On 2×n subspaces level one is exact (positive biquadratic forms in 2×n
+// variables are sums of squares; Calderón, 1973): compared with the
+// branch-and-bound optimum computed independently... here with many-start
+// search, whose Upper must lie within the SDP accuracy of the SOS Lower.
+func TestTwoByN(t *testing.T) {
+	for seed := uint64(1); seed <= 3; seed++ {
+		in := suite.Random(2, 4, 3, seed)
+		w := mustNew(t, in)
+		r, err := (&Bound{}).Search(context.Background(), w)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ms, _ := (&rankone.MultiStart{Starts: 16}).Search(context.Background(), w)
+		if r.Lower > ms.Upper {
+			t.Errorf("%s: SOS Lower %v > local Upper %v", in.Name, r.Lower, ms.Upper)
+		}
+		if ms.Upper-r.Lower > 1e-6 {
+			t.Errorf("%s: 2×n gap %v (level one should be exact)", in.Name, ms.Upper-r.Lower)
+		}
+	}
+}
+
+// Every SOS Lower ≤ every Upper of the other strategies on random instances.
+func TestNeverContradicts(t *testing.T) {
+	for seed := uint64(1); seed <= 4; seed++ {
+		in := suite.Random(3, 3+int(seed%2), 4, seed)
+		w := mustNew(t, in)
+		r, _ := (&Bound{}).Search(context.Background(), w)
+		for _, s := range []rankone.Searcher{&rankone.MultiStart{Starts: 16}, &rankone.ALS{}, &rankone.TrustRegion{}} {
+			o, _ := s.Search(context.Background(), w)
+			if r.Lower > o.Upper {
+				t.Errorf("%s: SOS Lower %v > %s Upper %v", in.Name, r.Lower, rankone.NameOf(s), o.Upper)
+			}
+		}
+	}
+}
+
+// Verify rejects tampered certificates.
+func TestVerifyRejectsTampering(t *testing.T) {
+	w := mustNew(t, suite.Antisymmetric(3))
+	rel, err := LevelOne(w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := make([]float64, len(rel.Problem.B))
+	for i := range y {
+		y[i] = 0.1 * float64(i%7)
+	}
+	c := rel.Certificate(y)
+	if _, err := Verify(w, c); err != nil {
+		t.Fatalf("a built certificate is rejected: %v", err)
+	}
+	bad := Certificate{M: 3, N: 3, K: append([]float64(nil), c.K...)}
+	bad.K[1] += 1e-3 // breaks symmetry and antisymmetry
+	if _, err := Verify(w, bad); !errors.Is(err, ErrCertificate) {
+		t.Errorf("tampered certificate: %v", err)
+	}
+	bad = Certificate{M: 3, N: 3, K: append([]float64(nil), c.K...)}
+	bad.K[1*9+3] += 0.5 // symmetric change that breaks T-antisymmetry
+	bad.K[3*9+1] += 0.5
+	if _, err := Verify(w, bad); !errors.Is(err, ErrCertificate) {
+		t.Errorf("non-antisymmetric certificate: %v", err)
+	}
+	if _, err := Verify(w, Certificate{M: 3, N: 3, K: []float64{1}}); !errors.Is(err, ErrCertificate) {
+		t.Errorf("short certificate: %v", err)
+	}
+	// The zero certificate proves the trivial λmax(P_W) = 1.
+	if b, err := Verify(w, Certificate{M: 3, N: 3, K: make([]float64, 81)}); err != nil || b < 1-1e-12 {
+		t.Errorf("zero certificate: %v, %v", b, err)
+	}
+	_ = math.Abs
+}
