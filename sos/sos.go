@@ -21,10 +21,13 @@
 package sos
 
 import (
+	"bufio"
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
+	"strconv"
 	"time"
 
 	"gonum.org/v1/gonum/mat"
@@ -292,4 +295,33 @@ func lowerFromH(h float64) float64 {
 		return 0
 	}
 	return accurate.SqrtDown(accurate.Down(1 - math.Max(h, 0)))
+}
+
+// WriteSDPA writes the relaxation in the SDPA sparse format, so that any SDP
+// solver can check it. Layout: one block of order mn; the variable is the
+// moment matrix ρ with rows and columns indexed by (i, j) ↦ i·n + j + 1
+// (1-based); matrix 0 is the objective P̂ (to be maximised, in the
+// convention max tr(F₀X) s.t. tr(F_iX) = c_i, X ⪰ 0 that CSDP uses);
+// constraint 1 is tr ρ = 1 and the others are ρ_ab − ρ_T(ab) = 0.
+func (r *Relaxation) WriteSDPA(wr io.Writer) error {
+	bw := bufio.NewWriter(wr)
+	p := r.Problem
+	fmt.Fprintf(bw, "\"level-one moment relaxation, %dx%d\n%d\n1\n%d\n", r.m, r.n, len(p.A), p.N)
+	for i, b := range p.B {
+		if i > 0 {
+			bw.WriteByte(' ')
+		}
+		bw.WriteString(strconv.FormatFloat(b, 'g', -1, 64))
+	}
+	bw.WriteByte('\n')
+	write := func(mat int, es []sdp.Entry) {
+		for _, e := range es {
+			fmt.Fprintf(bw, "%d 1 %d %d %s\n", mat, e.I+1, e.J+1, strconv.FormatFloat(e.V, 'g', -1, 64))
+		}
+	}
+	write(0, p.C)
+	for i, a := range p.A {
+		write(i+1, a)
+	}
+	return bw.Flush()
 }
