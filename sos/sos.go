@@ -243,6 +243,9 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 			res.X, res.Y, res.Upper, res.Value = x, y, u, st.Value
 		}
 	}
+	if res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300) {
+		res.Status = rankone.GapReached // the relaxation is exact here
+	}
 	res.Elapsed = time.Since(begin)
 	if cerr := ctx.Err(); cerr != nil {
 		res.Status = rankone.Cancelled

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/rankone/searchtest"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
 )
@@ -113,4 +114,12 @@ func TestVerifyRejectsTampering(t *testing.T) {
 		t.Errorf("zero certificate: %v, %v", b, err)
 	}
 	_ = math.Abs
+}
+
+// The level-one Searcher passes the conformance suite on the small
+// closed-form instances (its witness is polished, so it claims accuracy).
+func TestConformance(t *testing.T) {
+	small := []suite.Instance{suite.OneMatrix(3, 4, 1), suite.Antisymmetric(3), suite.Symmetric(3), suite.Hyperplane(2, 3, 1),
+		suite.HurwitzRadon(2, 2), suite.Planted(3, 4, 4, 1), suite.NormedAlgebraComplement(2, 1)}
+	searchtest.Run(t, func() rankone.Searcher { return &Bound{} }, searchtest.Options{Accuracy: 1e-10, Instances: small})
 }

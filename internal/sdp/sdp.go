@@ -111,9 +111,14 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		tol = 1e-9
 	}
 	c := dense(n, p.C)
-	as := make([]*mat.SymDense, k)
+	full := make([][]Entry, k) // each A_i's entries in both triangles
 	for i := range p.A {
-		as[i] = dense(n, p.A[i])
+		for _, e := range p.A[i] {
+			full[i] = append(full[i], e)
+			if e.I != e.J {
+				full[i] = append(full[i], Entry{e.J, e.I, e.V})
+			}
+		}
 	}
 	var bn float64
 	for _, v := range p.B {
@@ -196,23 +201,33 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		zch.InverseTo(&zinv)
 		// Schur complement M_ij = tr(A_i Z⁻¹ A_j X), symmetric positive
 		// definite (tr(A_iZ⁻¹A_jX) = tr(A_jZ⁻¹A_iX) by transposition and
-		// cyclicity). Z⁻¹A_jX is formed from the sparse A_j.
+		// cyclicity). With the sparse entries expanded to both triangles,
+		// M_ij = Σ_{(a,b,v)∈A_i} Σ_{(p,q,w)∈A_j} v·w·Z⁻¹_bp·X_qa, which costs
+		// nnz_i·nnz_j instead of a dense product.
 		m := mat.NewSymDense(k, nil)
-		g := mat.NewDense(n, n, nil)
-		za := mat.NewDense(n, n, nil)
+		zr, xr := zinv.RawSymmetric(), x.RawSymmetric()
+		zat := func(i, j int) float64 {
+			if i > j {
+				i, j = j, i
+			}
+			return zr.Data[i*zr.Stride+j]
+		}
+		xat := func(i, j int) float64 {
+			if i > j {
+				i, j = j, i
+			}
+			return xr.Data[i*xr.Stride+j]
+		}
 		for j := 0; j < k; j++ {
-			za.Zero()
-			for _, e := range p.A[j] { // columns of Z⁻¹A_j
-				for r := 0; r < n; r++ {
-					za.Set(r, e.J, za.At(r, e.J)+zinv.At(r, e.I)*e.V)
-					if e.I != e.J {
-						za.Set(r, e.I, za.At(r, e.I)+zinv.At(r, e.J)*e.V)
+			ej := full[j]
+			for i := 0; i <= j; i++ {
+				var t float64
+				for _, ea := range full[i] {
+					for _, eb := range ej {
+						t += ea.V * eb.V * zat(ea.J, eb.I) * xat(eb.J, ea.I)
 					}
 				}
-			}
-			g.Mul(za, x)
-			for i := 0; i <= j; i++ {
-				m.SetSym(i, j, inner(p.A[i], g))
+				m.SetSym(i, j, t)
 			}
 		}
 		var mch mat.Cholesky
@@ -236,7 +251,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 			}
 			rhs := make([]float64, k)
 			for i := range rhs {
-				rhs[i] = traceProd(as[i], &r) - rp[i]
+				rhs[i] = inner(p.A[i], &r) - rp[i]
 			}
 			dyv := mat.NewVecDense(k, nil)
 			if err := mch.SolveVecTo(dyv, mat.NewVecDense(k, rhs)); err != nil {

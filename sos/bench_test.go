@@ -1,0 +1,60 @@
+package sos
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"testing"
+	"time"
+
+	"github.com/segre-lab/segre/internal/sdp"
+	"github.com/segre-lab/segre/rankone/suite"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// BenchmarkLevelOne solves the level-one relaxation for m = n ∈ {4, 6, 8, 10}
+// on Gaussian subspaces of dimension mn/2 with our solver, and in the same
+// benchmark runs CSDP on the exported SDPA file: it reports our time
+// (ns/op), CSDP's time (csdp-s), the ratio and the relative difference of
+// the optima.
+func BenchmarkLevelOne(b *testing.B) {
+	bin, err := exec.LookPath("csdp")
+	if err != nil {
+		b.Skip("csdp not installed")
+	}
+	for _, n := range []int{4, 6, 8, 10} {
+		in := suite.Random(n, n, n*n/2, 1)
+		w, _ := subspace.New(in.Basis, subspace.Options{})
+		rel, err := LevelOne(w)
+		if err != nil {
+			b.Fatal(err)
+		}
+		path := filepath.Join(b.TempDir(), "p.dat-s")
+		var buf bytes.Buffer
+		rel.WriteSDPA(&buf)
+		os.WriteFile(path, buf.Bytes(), 0o644)
+		b.Run(fmt.Sprintf("n%d", n), func(b *testing.B) {
+			var sol *sdp.Solution
+			for b.Loop() {
+				sol, _ = sdp.Solve(context.Background(), rel.Problem, sdp.Settings{})
+			}
+			t0 := time.Now()
+			out, _ := exec.Command(bin, path).CombinedOutput()
+			cs := time.Since(t0).Seconds()
+			m := regexp.MustCompile(`Primal objective value:\s*([-+0-9.eE]+)`).FindSubmatch(out)
+			if m == nil {
+				b.Fatalf("csdp output:\n%s", out)
+			}
+			ref, _ := strconv.ParseFloat(string(m[1]), 64)
+			b.ReportMetric(cs, "csdp-s")
+			b.ReportMetric(math.Abs(sol.Primal-ref)/math.Abs(ref), "reldiff")
+			b.ReportMetric(float64(sol.Iterations), "iters")
+		})
+	}
+}
