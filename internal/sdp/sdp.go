@@ -42,8 +42,9 @@ type Status int
 const (
 	Optimal Status = iota + 1
 	IterationLimit
-	Infeasible // primal or dual infeasibility detected (norms diverge)
+	Infeasible     // primal or dual infeasibility detected (iterates diverge)
 	Cancelled
+	NumericalLimit // the factorisations broke down before the tolerance; best iterate returned
 )
 
 // Solution is the solver's output.
@@ -194,8 +195,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		mu := trace(x, z) / float64(n)
 		var zch mat.Cholesky
 		if !zch.Factorize(z) {
-			sol.Status = Infeasible
-			return sol, nil
+			return numericalStop(sol, best, measure), nil
 		}
 		var zinv mat.SymDense
 		zch.InverseTo(&zinv)
@@ -232,8 +232,26 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		}
 		var mch mat.Cholesky
 		if !mch.Factorize(m) {
-			sol.Status = Infeasible
-			return sol, nil
+			// Near the optimum M becomes ill-conditioned: regularise its
+			// diagonal slightly (this only perturbs the search direction).
+			var dmax float64
+			for i := 0; i < k; i++ {
+				dmax = math.Max(dmax, m.At(i, i))
+			}
+			ok := false
+			for _, eps := range []float64{1e-14, 1e-12, 1e-10} {
+				mr := mat.NewSymDense(k, append([]float64(nil), m.RawSymmetric().Data...))
+				for i := 0; i < k; i++ {
+					mr.SetSym(i, i, mr.At(i, i)+eps*dmax)
+				}
+				if mch.Factorize(mr) {
+					ok = true
+					break
+				}
+			}
+			if !ok {
+				return numericalStop(sol, best, measure), nil
+			}
 		}
 		// direction solves for a given target and corrector term.
 		direction := func(sigmaMu float64, corr *mat.Dense) (*mat.SymDense, []float64, *mat.SymDense) {
@@ -255,7 +273,11 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 			}
 			dyv := mat.NewVecDense(k, nil)
 			if err := mch.SolveVecTo(dyv, mat.NewVecDense(k, rhs)); err != nil {
-				return nil, nil, nil
+				// gonum reports a large condition number as an error but
+				// still returns the solution; only other errors stop.
+				if _, ill := err.(mat.Condition); !ill {
+					return nil, nil, nil
+				}
 			}
 			dy := dyv.RawVector().Data
 			dz := atOp(dy)
@@ -274,8 +296,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		}
 		dxa, _, dza := direction(0, nil)
 		if dxa == nil {
-			sol.Status = Infeasible
-			return sol, nil
+			return numericalStop(sol, best, measure), nil
 		}
 		ap, ad := maxStep(x, dxa), maxStep(z, dza)
 		var xa, zaff mat.SymDense
@@ -289,8 +310,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		corr.Mul(&corr, dxa)
 		dx, dy, dz := direction(sigma*mu, &corr)
 		if dx == nil {
-			sol.Status = Infeasible
-			return sol, nil
+			return numericalStop(sol, best, measure), nil
 		}
 		ap = math.Min(1, 0.95*maxStep(x, dx))
 		ad = math.Min(1, 0.95*maxStep(z, dz))
@@ -302,6 +322,18 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 	}
 	fill(sol, p, c, x, y, z, maxIter, bn, cn)
 	return sol, nil
+}
+
+// numericalStop returns the best iterate when the factorisations break
+// down: status Optimal if it met 10 times the tolerance (see Solve),
+// IterationLimit otherwise; a breakdown is not evidence of infeasibility.
+func numericalStop(cur, best *Solution, measure func(*Solution) float64) *Solution {
+	s := cur
+	if best != nil && measure(best) < measure(cur) {
+		s = best
+	}
+	s.Status = NumericalLimit
+	return s
 }
 
 // subSym sets a = a − b.
