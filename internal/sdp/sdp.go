@@ -42,7 +42,7 @@ type Status int
 const (
 	Optimal Status = iota + 1
 	IterationLimit
-	Infeasible     // primal or dual infeasibility detected (iterates diverge)
+	Infeasible // primal or dual infeasibility detected (iterates diverge)
 	Cancelled
 	NumericalLimit // the factorisations broke down before the tolerance; best iterate returned
 )
