@@ -58,3 +58,41 @@ func BenchmarkLevelOne(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkLevelTwo reports the time of the level-two relaxation for
+// m = n ∈ {4, 5, 6} (Gaussian subspaces of dimension mn/2) and the bounds of
+// levels one and two ("l1-h", "l2-h": certified upper bounds on h*).
+func BenchmarkLevelTwo(b *testing.B) {
+	for _, n := range []int{4, 5, 6} {
+		in := suite.Random(n, n, n*n/2, 1)
+		w, _ := subspace.New(in.Basis, subspace.Options{})
+		b.Run(fmt.Sprintf("n%d", n), func(b *testing.B) {
+			var r2 float64
+			for b.Loop() {
+				r, err := (&LevelTwo{}).Search(context.Background(), w)
+				if err != nil {
+					b.Fatal(err)
+				}
+				r2 = 1 - r.Lower*r.Lower
+			}
+			r1, _ := (&Bound{}).Search(context.Background(), w)
+			b.ReportMetric(1-r1.Lower*r1.Lower, "l1-h")
+			b.ReportMetric(r2, "l2-h")
+		})
+	}
+}
+
+// BenchmarkEigenBound reports the time and value of the eigenvalue-only
+// two-copy extension bound for m = n = 16 (order 2176).
+func BenchmarkEigenBound(b *testing.B) {
+	in := suite.Random(16, 16, 128, 1)
+	w, _ := subspace.New(in.Basis, subspace.Options{})
+	var v float64
+	for b.Loop() {
+		var err error
+		if v, err = EigenBound(w); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(v, "h-bound")
+}

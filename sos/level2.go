@@ -1,0 +1,356 @@
+package sos
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/sdp"
+	"github.com/segre-lab/segre/internal/verified"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// Level two: a symmetric extension of the y side (the DPS hierarchy of
+// Doherty, Parrilo, Spedalieri 2004, in its real moment form; Ling, Nie,
+// Qi, Ye 2009).
+//
+// Coordinates. Index Sym²(R^n) by pairs p ≤ q with the exact 0/1 basis
+// b_pq = e_p⊗e_q + e_q⊗e_p (p < q), b_pp = e_p⊗e_p, so y⊗y = Σ c_pq b_pq with
+// c_pq = y_p y_q. For v = x⊗y⊗y the coordinates are c_(i,pq) = x_i y_p y_q,
+// and with B the (exact) basis matrix, D = BᵀB is diagonal with entries 2
+// (p < q) or 1, cᵀDc = ‖v‖² = 1 and h(x, y) = vᵀ(P⊗I)v = cᵀ(Bᵀ(P⊗I)B)c
+// (since ‖y‖ = 1). Let Ĉ = Bᵀ(P̂⊗I)B; P ⪯ P̂ + δI gives h ≤ cᵀĈc + δ.
+//
+// Moments. The entry ((i,pq),(k,rs)) of ccᵀ is the monomial x_i x_k
+// y_p y_q y_r y_s: entries in the same orbit (same {i, k} and same multiset
+// {p, q, r, s}) are equal. The relaxation: maximise ⟨Ĉ, ρ⟩ over ρ ⪰ 0 with
+// ⟨D, ρ⟩ = 1 and equal entries on each orbit. It contains level one and the
+// PPT conditions of the real case (all index permutations of the moments).
+//
+// Certificate. For a symmetric K whose entries sum to zero over every orbit,
+// cᵀKc = Σ_orbits (orbit sum)·monomial vanishes identically. In floats the
+// orbit sums s_o are bounded rigorously (compensated sums), and since every
+// monomial of unit vectors is at most 1 in magnitude, |cᵀKc| ≤ Σ_o |s_o|.
+// Then for any t: if tD − Ĉ − K ⪰ μI (μ from the verified Cholesky test on
+// the float matrix, rounding of forming it included), and ‖c‖² ≤ cᵀDc = 1,
+// h ≤ t − min(μ, 0) + Σ_o|s_o| + δ + ‖Ĉ − Ĉ_exact‖.
+
+// extension holds the level-two structure of an m×n subspace.
+type extension struct {
+	m, n, s int       // s = n(n+1)/2
+	pq      [][2]int  // pair of each Sym² index
+	dim     int       // m·s
+	chat    []float64 // Ĉ, dim×dim row-major
+	cerr    float64   // bound on ‖Ĉ − Bᵀ(P̂⊗I)B‖ (rounding)
+	delta   float64   // P ⪯ P̂ + δI
+	orbit   []int     // orbit id of each upper-triangle entry (a ≤ b), index a·dim+b
+	norbits int
+}
+
+func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
+	m, n := w.Rows(), w.Cols()
+	s := n * (n + 1) / 2
+	dim := m * s
+	if dim > limit {
+		return nil, fmt.Errorf("%w: the extension of %d×%d has order %d (limit %d)", ErrTooLarge, m, n, dim, limit)
+	}
+	e := &extension{m: m, n: n, s: s, dim: dim}
+	for p := 0; p < n; p++ {
+		for q := p; q < n; q++ {
+			e.pq = append(e.pq, [2]int{p, q})
+		}
+	}
+	ph, delta := w.ProjectorBound()
+	e.delta = delta
+	// terms(pq) lists the (a, b) with b_pq = Σ e_a⊗e_b.
+	terms := func(t [2]int) [][2]int {
+		if t[0] == t[1] {
+			return [][2]int{{t[0], t[0]}}
+		}
+		return [][2]int{{t[0], t[1]}, {t[1], t[0]}}
+	}
+	e.chat = make([]float64, dim*dim)
+	var errF float64
+	for i := 0; i < m; i++ {
+		for u, tu := range e.pq {
+			for k := 0; k < m; k++ {
+				for v, tv := range e.pq {
+					var sum, abs float64
+					cnt := 0
+					for _, ab := range terms(tu) {
+						for _, cd := range terms(tv) {
+							if ab[1] != cd[1] {
+								continue
+							}
+							x := ph.At(i*n+ab[0], k*n+cd[0])
+							sum += x
+							abs += math.Abs(x)
+							cnt++
+						}
+					}
+					e.chat[(i*s+u)*dim+k*s+v] = sum
+					if cnt > 1 {
+						b := accurate.MulUp(accurate.Gamma(cnt), abs)
+						errF += b * b
+					}
+				}
+			}
+		}
+	}
+	e.cerr = accurate.SqrtUp(accurate.UpperRel(errF, dim*dim+1))
+	// Orbits of the upper-triangle entries.
+	type key struct {
+		i, k int
+		ys   [4]int
+	}
+	ids := map[key]int{}
+	e.orbit = make([]int, dim*dim)
+	for a := 0; a < dim; a++ {
+		for b := a; b < dim; b++ {
+			i, u := a/s, a%s
+			k, v := b/s, b%s
+			ys := [4]int{e.pq[u][0], e.pq[u][1], e.pq[v][0], e.pq[v][1]}
+			sort.Ints(ys[:])
+			kk := key{min(i, k), max(i, k), ys}
+			id, ok := ids[kk]
+			if !ok {
+				id = len(ids)
+				ids[kk] = id
+			}
+			e.orbit[a*dim+b] = id
+		}
+	}
+	e.norbits = len(ids)
+	return e, nil
+}
+
+// problem builds the level-two SDP: constraint 0 is ⟨D, ρ⟩ = 1, and each
+// other constraint says ρ_u = ρ_r for an entry u and the first entry r of
+// its orbit.
+func (e *extension) problem() (sdp.Problem, [][2]int) {
+	dim := e.dim
+	p := sdp.Problem{N: dim}
+	for a := 0; a < dim; a++ {
+		for b := a; b < dim; b++ {
+			if v := e.chat[a*dim+b]; v != 0 {
+				p.C = append(p.C, sdp.Entry{I: a, J: b, V: v})
+			}
+		}
+	}
+	d := make([]sdp.Entry, dim)
+	for a := 0; a < dim; a++ {
+		d[a] = sdp.Entry{I: a, J: a, V: e.dval(a)}
+	}
+	p.A = append(p.A, d)
+	p.B = append(p.B, 1)
+	pairs := [][2]int{{0, 0}}
+	first := make([]int, e.norbits)
+	for i := range first {
+		first[i] = -1
+	}
+	half := func(a, b int) float64 {
+		if a == b {
+			return 1
+		}
+		return 0.5
+	}
+	for a := 0; a < dim; a++ {
+		for b := a; b < dim; b++ {
+			o := e.orbit[a*dim+b]
+			if first[o] < 0 {
+				first[o] = a*dim + b
+				continue
+			}
+			r := first[o]
+			ra, rb := r/dim, r%dim
+			p.A = append(p.A, []sdp.Entry{{I: a, J: b, V: half(a, b)}, {I: ra, J: rb, V: -half(ra, rb)}})
+			p.B = append(p.B, 0)
+			pairs = append(pairs, [2]int{a*dim + b, r})
+		}
+	}
+	return p, pairs
+}
+
+func (e *extension) dval(a int) float64 {
+	t := e.pq[a%e.s]
+	if t[0] == t[1] {
+		return 1
+	}
+	return 2
+}
+
+// bound proves an upper bound on h* from t and a symmetric K (dim×dim,
+// row-major), as derived above.
+func (e *extension) bound(t float64, k []float64) float64 {
+	dim := e.dim
+	// Orbit sums of K over the full matrix (both triangles).
+	accs := make([]accurate.Acc, e.norbits)
+	for a := 0; a < dim; a++ {
+		for b := 0; b < dim; b++ {
+			lo, hi := min(a, b), max(a, b)
+			accs[e.orbit[lo*dim+hi]].Add(k[a*dim+b])
+		}
+	}
+	var resid float64
+	for i := range accs {
+		r, bd := accs[i].Result()
+		resid = accurate.AddUp(resid, accurate.AddUp(math.Abs(r), bd))
+	}
+	a := mat.NewSymDense(dim, nil)
+	var fro float64
+	for i := 0; i < dim; i++ {
+		for j := i; j < dim; j++ {
+			v := -e.chat[i*dim+j] - k[i*dim+j]
+			if i == j {
+				v += t * e.dval(i)
+			}
+			a.SetSym(i, j, v)
+			fro += 2 * v * v
+		}
+	}
+	// Forming each entry takes at most two roundings: ≤ 2u·|entry| + its share.
+	round := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
+	mu := verified.MinEigLower(a, 0)
+	mu = accurate.Down(mu - round)
+	ub := t
+	if mu < 0 {
+		ub = accurate.AddUp(ub, -mu)
+	}
+	ub = accurate.AddUp(ub, resid)
+	ub = accurate.AddUp(ub, e.delta)
+	ub = accurate.AddUp(ub, e.cerr)
+	return ub
+}
+
+// LevelTwo is a Searcher for the level-two relaxation (see the comment at
+// the top of level2.go): certified bound from its dual, witness rounded
+// from its moment matrix and polished. It handles m·n(n+1)/2 ≤ 400.
+//
+// The zero value is ready to use.
+type LevelTwo struct {
+	// MaxIter bounds the interior-point iterations; zero means 100.
+	MaxIter int
+}
+
+var _ rankone.Searcher = (*LevelTwo)(nil)
+
+// Name returns "sos level 2".
+func (l *LevelTwo) Name() string { return "sos level 2" }
+
+// Search implements rankone.Searcher.
+func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	begin := time.Now()
+	m, n := w.Rows(), w.Cols()
+	res := rankone.Result{FoundBy: l.Name(), Status: rankone.Converged, Starts: 1}
+	res.X, res.Y = unit(m), unit(n)
+	res.Upper, _ = rankone.Verify(w, res.X, res.Y)
+	e, err := newExtension(w, 400)
+	if err != nil {
+		return res, err
+	}
+	prob, pairs := e.problem()
+	sol, err := sdp.Solve(ctx, prob, sdp.Settings{MaxIter: l.MaxIter})
+	if sol == nil {
+		return res, err
+	}
+	res.Iterations = sol.Iterations
+	if sol.Status != sdp.Optimal {
+		res.Status = rankone.LimitReached
+	}
+	// K = −Σ_{j≥1} y_j A_j (the dual: y₀D + Σ y_jA_j − Ĉ ⪰ 0).
+	dim := e.dim
+	k := make([]float64, dim*dim)
+	for j := 1; j < len(pairs); j++ {
+		u, r := pairs[j][0], pairs[j][1]
+		for _, q := range []struct {
+			idx  int
+			sign float64
+		}{{u, -1}, {r, 1}} {
+			a, b := q.idx/dim, q.idx%dim
+			v := q.sign * sol.Y[j]
+			if a != b {
+				v /= 2
+			}
+			k[a*dim+b] += v
+			if a != b {
+				k[b*dim+a] += v
+			}
+		}
+	}
+	hb := e.bound(sol.Dual*(1+1e-12)+1e-15, k)
+	if lo := lowerFromH(hb); lo > 0 {
+		res.Lower, res.LowerBy = lo, "sos level 2"
+	}
+	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s
+	// reshaping has top left singular vector ≈ x and right vector ≈ (y_p y_q),
+	// whose symmetric n×n form has top eigenvector ≈ ±y. Then polish.
+	var es mat.EigenSym
+	if es.Factorize(sol.X, true) {
+		var vecs mat.Dense
+		es.VectorsTo(&vecs)
+		top := mat.Col(nil, dim-1, &vecs)
+		var svd mat.SVD
+		if svd.Factorize(mat.NewDense(m, e.s, top), mat.SVDThin) {
+			var u, v mat.Dense
+			svd.UTo(&u)
+			svd.VTo(&v)
+			x := mat.Col(nil, 0, &u)
+			r := mat.NewSymDense(n, nil)
+			for k, t := range e.pq {
+				r.SetSym(t[0], t[1], v.At(k, 0))
+			}
+			y := make([]float64, n)
+			tmp := mat.NewVecDense(n, nil)
+			rankone.TopEigen(func(dst, src []float64) { // R² ⪰ 0: the sign of R does not matter
+				tmp.MulVec(r, mat.NewVecDense(n, src))
+				mat.NewVecDense(n, dst).MulVec(r, tmp)
+			}, y, 0, 0, 1e-12)
+			st, _ := (&rankone.ALS{}).Refine(ctx, w, x, y)
+			if up, err := rankone.Verify(w, x, y); err == nil && up < res.Upper {
+				res.X, res.Y, res.Upper, res.Value = x, y, up, st.Value
+			}
+		}
+	}
+	if res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300) {
+		res.Status = rankone.GapReached
+	}
+	res.Elapsed = time.Since(begin)
+	if cerr := ctx.Err(); cerr != nil {
+		res.Status = rankone.Cancelled
+		return res, cerr
+	}
+	return res, err
+}
+
+// EigenBound is the eigenvalue-only bound of the symmetric extension (no
+// SDP): with K = 0 in the level-two argument, h* ≤ min{t : tD − Ĉ ⪰ 0} + δ
+// + rounding, i.e. the largest generalised eigenvalue of (Ĉ, D), proven by
+// the verified Cholesky test. It returns the certified upper bound on h*.
+// It handles m·n(n+1)/2 ≤ 2500 (dense matrices of that order).
+func EigenBound(w *subspace.Subspace) (float64, error) {
+	e, err := newExtension(w, 2500)
+	if err != nil {
+		return 1, err
+	}
+	dim := e.dim
+	// Estimate the top generalised eigenvalue through D^{-1/2}ĈD^{-1/2}.
+	sc := mat.NewSymDense(dim, nil)
+	for i := 0; i < dim; i++ {
+		for j := i; j < dim; j++ {
+			sc.SetSym(i, j, e.chat[i*dim+j]/math.Sqrt(e.dval(i)*e.dval(j)))
+		}
+	}
+	var es mat.EigenSym
+	if !es.Factorize(sc, false) {
+		return 1, fmt.Errorf("sos: eigen-decomposition failed")
+	}
+	v := es.Values(nil)
+	t := v[len(v)-1] * (1 + 1e-12)
+	return math.Min(1, e.bound(t, make([]float64, dim*dim))), nil
+}
