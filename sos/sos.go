@@ -234,6 +234,9 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if hb, verr := Verify(w, rel.Certificate(sol.Y)); verr == nil {
 		if lo := lowerFromH(hb); lo > 0 {
 			res.Lower, res.LowerBy = lo, "sos level 1"
+			if RankOne(sol.X, 1e-6) {
+				res.LowerBy = "sos level 1 (moment matrix of rank one: the relaxation is exact)"
+			}
 		}
 	}
 	// Round the moment matrix to a point.
