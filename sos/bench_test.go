@@ -82,17 +82,22 @@ func BenchmarkLevelTwo(b *testing.B) {
 	}
 }
 
-// BenchmarkEigenBound reports the time and value of the eigenvalue-only
-// two-copy extension bound for m = n = 16 (order 2176).
+// BenchmarkEigenBound reports the time and value ("h-bound") of the
+// eigenvalue-only two-copy extension bound for m = n ∈ {16, 32} on Gaussian
+// subspaces of dimension k (the Gram route, order k·n).
 func BenchmarkEigenBound(b *testing.B) {
-	in := suite.Random(16, 16, 128, 1)
-	w, _ := subspace.New(in.Basis, subspace.Options{})
-	var v float64
-	for b.Loop() {
-		var err error
-		if v, err = EigenBound(w); err != nil {
-			b.Fatal(err)
-		}
+	for _, c := range [][2]int{{16, 16}, {16, 128}, {32, 32}, {32, 64}} {
+		in := suite.Random(c[0], c[0], c[1], 1)
+		w, _ := subspace.New(in.Basis, subspace.Options{})
+		b.Run(fmt.Sprintf("n%d/k%d", c[0], c[1]), func(b *testing.B) {
+			var v float64
+			for b.Loop() {
+				var err error
+				if v, err = EigenBound(w); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(v, "h-bound")
+		})
 	}
-	b.ReportMetric(v, "h-bound")
 }

@@ -332,8 +332,18 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 // SDP): with K = 0 in the level-two argument, h* ≤ min{t : tD − Ĉ ⪰ 0} + δ
 // + rounding, i.e. the largest generalised eigenvalue of (Ĉ, D), proven by
 // the verified Cholesky test. It returns the certified upper bound on h*.
-// It handles m·n(n+1)/2 ≤ 2500 (dense matrices of that order).
+// It uses the k·n Gram form of subspace.ExtensionBound when W is stored
+// and k·n ≤ 4096 (same value, smaller matrix), else a dense matrix of order
+// m·n(n+1)/2 ≤ 2500.
 func EigenBound(w *subspace.Subspace) (float64, error) {
+	if ub, ok := w.ExtensionBound(4096); ok {
+		return math.Min(ub, 1), nil
+	}
+	return eigenBoundDense(w)
+}
+
+// eigenBoundDense is EigenBound through the dense order-m·n(n+1)/2 matrix.
+func eigenBoundDense(w *subspace.Subspace) (float64, error) {
 	e, err := newExtension(w, 2500)
 	if err != nil {
 		return 1, err

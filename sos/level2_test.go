@@ -2,6 +2,7 @@ package sos
 
 import (
 	"context"
+	"math"
 	"math/rand/v2"
 	"testing"
 
@@ -83,4 +84,29 @@ func TestLevelTwoBoundAnyK(t *testing.T) {
 func TestLevelTwoConformance(t *testing.T) {
 	small := []suite.Instance{suite.OneMatrix(3, 3, 1), suite.Antisymmetric(3), suite.HurwitzRadon(2, 2), suite.Planted(3, 3, 3, 1)}
 	searchtest.Run(t, func() rankone.Searcher { return &LevelTwo{} }, searchtest.Options{Accuracy: 1e-10, Instances: small})
+}
+
+// The Gram form (subspace.ExtensionBound) and the dense form of the
+// eigenvalue-only bound compute the same λmax (derived on ExtensionBound:
+// ΠFFᵀΠ and FᵀΠF share their nonzero eigenvalues); both are proven upper
+// bounds, so they agree to their rounding slack.
+func TestEigenBoundTwoRoutes(t *testing.T) {
+	for _, in := range []suite.Instance{suite.Random(3, 4, 3, 1), suite.Random(4, 3, 5, 2), suite.OneMatrix(4, 4, 3), suite.Antisymmetric(4)} {
+		w := mustNew(t, in)
+		g, ok := w.ExtensionBound(4096)
+		if !ok {
+			t.Fatalf("%s: Gram route unavailable", in.Name)
+		}
+		d, err := eigenBoundDense(w)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if math.Abs(math.Min(g, 1)-d) > 1e-9 {
+			t.Errorf("%s: Gram %v, dense %v", in.Name, g, d)
+		}
+		ms, _ := (&rankone.MultiStart{Starts: 16}).Search(context.Background(), w)
+		if g < 1-ms.Upper*ms.Upper {
+			t.Errorf("%s: bound %v below a found h %v", in.Name, g, 1-ms.Upper*ms.Upper)
+		}
+	}
 }

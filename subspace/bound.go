@@ -330,3 +330,80 @@ func (w *Subspace) ProjectorBound() (*mat.SymDense, float64) {
 	delta = accurate.AddUp(delta, complementDiag(raw, 1))
 	return mat.NewSymDense(L, raw.Data), delta
 }
+
+// ExtensionBound returns a proven upper bound on λmax(Π(P_W⊗I_n)Π), where Π
+// projects R^m⊗R^n⊗R^n onto R^m⊗Sym²(R^n) (the two-copy symmetric extension
+// of the column side), and ok = false when the stored basis is W⊥ or k·n
+// exceeds maxOrder (then the caller needs another method). Since
+// h(x, y) = vᵀ(P_W⊗I)v for the unit v = x⊗y⊗y in the range of Π, the result
+// bounds h*.
+//
+// Derivation (W stored, rows S_t as m×n matrices, Gram SSᵀ = G, ‖G − I‖ ≤ η):
+// P_W ⪯ SᵀS/(1−η), so P_W⊗I ⪯ FFᵀ/(1−η) with F = [s_t⊗e_j]_{t,j}, and
+// λmax(ΠFFᵀΠ) = λmax(FᵀΠF). With Π = I⊗(I + SWAP)/2 on the last two factors,
+// FᵀΠF = ½(G⊗I + N), N[(t,j),(t',j')] = Σ_i S_t[i][j']·S_t'[i][j] (derived
+// by expanding the swap). The float N errs entrywise by at most
+// γ_m·Σ_i|S_t[i][j']||S_t'[i][j]| (Frobenius norm bounded alongside), the
+// float G by γ_L‖S‖_F² in norm (as in the orthogonality bound), and forming
+// ½(G⊗I + N) rounds each entry at most twice.
+func (w *Subspace) ExtensionBound(maxOrder int) (upper float64, ok bool) {
+	if w.comp || w.s == 0 {
+		return 1, false
+	}
+	m, n, s, L := w.m, w.n, w.s, w.m*w.n
+	dim := s * n
+	if dim > maxOrder {
+		return 1, false
+	}
+	if w.eta >= 0.5 {
+		return math.Inf(1), true
+	}
+	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
+	blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: s, Cols: L, Stride: L, Data: w.q}, 0, g)
+	a := mat.NewSymDense(dim, nil)
+	var absF, fro float64
+	for t := 0; t < s; t++ {
+		st := w.q[t*L : (t+1)*L]
+		for j := 0; j < n; j++ {
+			for t2 := t; t2 < s; t2++ {
+				su := w.q[t2*L : (t2+1)*L]
+				j0 := 0
+				if t2 == t {
+					j0 = j
+				}
+				for j2 := j0; j2 < n; j2++ {
+					var v, ab float64
+					for i := 0; i < m; i++ {
+						p := st[i*n+j2] * su[i*n+j]
+						v += p
+						ab += math.Abs(p)
+					}
+					if j == j2 {
+						v += g.Data[t*s+t2]
+					}
+					v /= 2
+					a.SetSym(t*n+j, t2*n+j2, v)
+					mult := 2.0
+					if t == t2 && j == j2 {
+						mult = 1
+					}
+					absF += mult * ab * ab
+					fro += mult * v * v
+				}
+			}
+		}
+	}
+	errN := accurate.MulUp(accurate.Gamma(m+1), accurate.SqrtUp(accurate.UpperRel(absF, dim*dim+1)))
+	errG := accurate.MulUp(accurate.Gamma(L), accurate.SumSqUpper(w.q))
+	errR := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
+	var es mat.EigenSym
+	guess := math.NaN()
+	if es.Factorize(a, false) {
+		vals := es.Values(nil)
+		guess = vals[len(vals)-1]
+	}
+	lam := verified.MaxEigUpper(a, guess)
+	lam = accurate.AddUp(lam, accurate.MulUp(0.5, accurate.AddUp(errN, errG)))
+	lam = accurate.AddUp(lam, errR)
+	return accurate.Up(math.Max(lam, 0) / accurate.Down(1-w.eta)), true
+}
