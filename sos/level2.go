@@ -206,16 +206,22 @@ func (e *extension) bound(t float64, k []float64) float64 {
 	var fro float64
 	for i := 0; i < dim; i++ {
 		for j := i; j < dim; j++ {
-			v := -e.chat[i*dim+j] - k[i*dim+j]
+			c, kk := e.chat[i*dim+j], k[i*dim+j]
+			v := -c - kk
+			mag := math.Abs(c) + math.Abs(kk)
 			if i == j {
-				v += t * e.dval(i)
+				td := t * e.dval(i)
+				v += td
+				mag += math.Abs(td)
 			}
 			a.SetSym(i, j, v)
-			fro += 2 * v * v
+			fro += 2 * mag * mag
 		}
 	}
-	// Forming each entry takes at most two roundings: ≤ 2u·|entry| + its share.
-	round := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
+	// Each entry is formed with at most three roundings (the product t·d and
+	// two additions), so it errs by at most γ₃ times the sum of the
+	// magnitudes of its terms (not of the result: the terms may cancel).
+	round := accurate.MulUp(accurate.Gamma(3), accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
 	mu := verified.MinEigLower(a, 0)
 	mu = accurate.Down(mu - round)
 	ub := t
