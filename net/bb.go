@@ -299,7 +299,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				cpt := make([]float64, d)
 				pending[bi].centre(cpt, d)
 				x, y := sd.witness(cpt, vecs[bi])
-				px, py, u, st := polish(ctx, w, l, x, y)
+				px, py, u, st := rankone.Polish(ctx, w, l, x, y)
 				res.Evaluations += st.Evaluations
 				res.Iterations += st.Iterations
 				if u < res.Upper {

@@ -147,12 +147,11 @@ feed:
 			l = &rankone.TrustRegion{}
 		}
 		var st rankone.Stats
-		res.X, res.Y, res.Upper, st = polish(ctx, w, l, x, y)
+		res.X, res.Y, res.Upper, st = rankone.Polish(ctx, w, l, x, y)
 		res.Value = st.Value
 		res.Evaluations += st.Evaluations
 	} else {
-		res.X, res.Y = unitVec(w.Rows()), unitVec(w.Cols())
-		res.Upper, _ = rankone.Verify(w, res.X, res.Y)
+		res.X, res.Y, res.Upper = rankone.TrivialWitness(w)
 	}
 	if complete {
 		// √h* ≤ √maxUp/(1 − ε), evaluated upwards.
@@ -168,10 +167,4 @@ feed:
 		return res, err
 	}
 	return res, nil
-}
-
-func unitVec(n int) []float64 {
-	v := make([]float64, n)
-	v[0] = 1
-	return v
 }

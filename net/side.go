@@ -1,12 +1,10 @@
 package net
 
 import (
-	"context"
 	"errors"
 	"math"
 
 	"github.com/segre-lab/segre/internal/accurate"
-	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -73,22 +71,6 @@ func (s *side) witness(c, v []float64) (x, y []float64) {
 		return cn, vn
 	}
 	return vn, cn
-}
-
-// polish refines a witness with a local method and returns the better of
-// the polished and the original point by their certified Upper.
-func polish(ctx context.Context, w *subspace.Subspace, l rankone.Local, x, y []float64) (bx, by []float64, upper float64, st rankone.Stats) {
-	u0, err := rankone.Verify(w, x, y)
-	if err != nil {
-		u0 = 1
-	}
-	px, py := append([]float64(nil), x...), append([]float64(nil), y...)
-	st, _ = l.Refine(ctx, w, px, py)
-	u1, err := rankone.Verify(w, px, py)
-	if err == nil && u1 < u0 {
-		return px, py, u1, st
-	}
-	return x, y, u0, st
 }
 
 // lowerFromH returns the certified lower bound √(1 − hUpper) on d*.

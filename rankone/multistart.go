@@ -149,9 +149,7 @@ feed:
 		res.X, res.Y, res.Upper, res.Value = b.x, b.y, b.upper, b.st.Value
 	} else {
 		// Cancelled before any start finished: return a trivially valid witness.
-		res.X, res.Y = unitVec(w.Rows()), unitVec(w.Cols())
-		u, _ := Verify(w, res.X, res.Y)
-		res.Upper = u
+		res.X, res.Y, res.Upper = TrivialWitness(w)
 	}
 	if !allOK {
 		res.Status = LimitReached

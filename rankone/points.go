@@ -83,8 +83,7 @@ func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 	if len(pts) > 0 {
 		res.X, res.Y, res.Upper, res.Value = pts[0].X, pts[0].Y, pts[0].Upper, pts[0].Value
 	} else {
-		res.X, res.Y = unitVec(w.Rows()), unitVec(w.Cols())
-		res.Upper, _ = Verify(w, res.X, res.Y)
+		res.X, res.Y, res.Upper = TrivialWitness(w)
 	}
 	if err != nil {
 		res.Status = LimitReached

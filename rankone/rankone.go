@@ -188,3 +188,31 @@ func ctxStatus(ctx context.Context) (Status, error) {
 	}
 	return 0, nil
 }
+
+// TrivialWitness returns x = e₁, y = e₁ and their certified Upper: the
+// valid fallback witness of a strategy that found nothing better (for
+// example when cancelled before its first start).
+func TrivialWitness(w *subspace.Subspace) (x, y []float64, upper float64) {
+	x, y = unitVec(w.Rows()), unitVec(w.Cols())
+	upper, err := Verify(w, x, y)
+	if err != nil {
+		upper = 1
+	}
+	return x, y, upper
+}
+
+// Polish refines a copy of (x, y) with the local method l and returns the
+// better of the refined and the original point by certified Upper, with the
+// refinement's stats. x and y are not modified.
+func Polish(ctx context.Context, w *subspace.Subspace, l Local, x, y []float64) (bx, by []float64, upper float64, st Stats) {
+	u0, err := Verify(w, x, y)
+	if err != nil {
+		u0 = 1
+	}
+	px, py := append([]float64(nil), x...), append([]float64(nil), y...)
+	st, _ = l.Refine(ctx, w, px, py)
+	if u1, err := Verify(w, px, py); err == nil && u1 < u0 {
+		return px, py, u1, st
+	}
+	return x, y, u0, st
+}

@@ -253,9 +253,7 @@ func (l *LevelTwo) Name() string { return "sos level 2" }
 func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
 	begin := time.Now()
 	m, n := w.Rows(), w.Cols()
-	res := rankone.Result{FoundBy: l.Name(), Status: rankone.Converged, Starts: 1}
-	res.X, res.Y = unit(m), unit(n)
-	res.Upper, _ = rankone.Verify(w, res.X, res.Y)
+	res := startResult(w, l.Name())
 	e, err := newExtension(w, 400)
 	if err != nil {
 		return res, err
@@ -317,21 +315,10 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 				tmp.MulVec(r, mat.NewVecDense(n, src))
 				mat.NewVecDense(n, dst).MulVec(r, tmp)
 			}, y, 0, 0, 1e-12)
-			st, _ := (&rankone.ALS{}).Refine(ctx, w, x, y)
-			if up, err := rankone.Verify(w, x, y); err == nil && up < res.Upper {
-				res.X, res.Y, res.Upper, res.Value = x, y, up, st.Value
-			}
+			keepBetter(ctx, w, &res, x, y)
 		}
 	}
-	if res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300) {
-		res.Status = rankone.GapReached
-	}
-	res.Elapsed = time.Since(begin)
-	if cerr := ctx.Err(); cerr != nil {
-		res.Status = rankone.Cancelled
-		return res, cerr
-	}
-	return res, err
+	return finishResult(ctx, res, begin, err)
 }
 
 // EigenBound is the eigenvalue-only bound of the symmetric extension (no

@@ -216,9 +216,7 @@ func (b *Bound) Name() string { return "sos level 1" }
 func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
 	begin := time.Now()
 	m, n := w.Rows(), w.Cols()
-	res := rankone.Result{FoundBy: b.Name(), Status: rankone.Converged, Starts: 1}
-	res.X, res.Y = unit(m), unit(n)
-	res.Upper, _ = rankone.Verify(w, res.X, res.Y)
+	res := startResult(w, b.Name())
 	rel, err := LevelOne(w)
 	if err != nil {
 		return res, err
@@ -241,13 +239,33 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	}
 	// Round the moment matrix to a point.
 	if x, y, ok := round(sol.X, m, n); ok {
-		st, _ := (&rankone.ALS{}).Refine(ctx, w, x, y)
-		if u, err := rankone.Verify(w, x, y); err == nil && u < res.Upper {
-			res.X, res.Y, res.Upper, res.Value = x, y, u, st.Value
-		}
+		keepBetter(ctx, w, &res, x, y)
 	}
+	return finishResult(ctx, res, begin, err)
+}
+
+// startResult is the Result every SOS searcher starts from: the trivial
+// witness, whose Upper is valid whatever happens next.
+func startResult(w *subspace.Subspace, name string) rankone.Result {
+	res := rankone.Result{FoundBy: name, Status: rankone.Converged, Starts: 1}
+	res.X, res.Y, res.Upper = rankone.TrivialWitness(w)
+	return res
+}
+
+// keepBetter polishes a rounded point and keeps it if its certified Upper
+// beats the current witness.
+func keepBetter(ctx context.Context, w *subspace.Subspace, res *rankone.Result, x, y []float64) {
+	px, py, u, st := rankone.Polish(ctx, w, &rankone.ALS{}, x, y)
+	if u < res.Upper {
+		res.X, res.Y, res.Upper, res.Value = px, py, u, st.Value
+	}
+}
+
+// finishResult sets the final status (gap reached when the relaxation is
+// exact here, cancelled on a done context) and the elapsed time.
+func finishResult(ctx context.Context, res rankone.Result, begin time.Time, err error) (rankone.Result, error) {
 	if res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300) {
-		res.Status = rankone.GapReached // the relaxation is exact here
+		res.Status = rankone.GapReached
 	}
 	res.Elapsed = time.Since(begin)
 	if cerr := ctx.Err(); cerr != nil {
@@ -288,12 +306,6 @@ func round(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
 	svd.UTo(&u)
 	svd.VTo(&v)
 	return mat.Col(nil, 0, &u), mat.Col(nil, 0, &v), true
-}
-
-func unit(n int) []float64 {
-	v := make([]float64, n)
-	v[0] = 1
-	return v
 }
 
 func lowerFromH(h float64) float64 {

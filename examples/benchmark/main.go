@@ -77,9 +77,7 @@ func (b *bestOfRandom) Search(ctx context.Context, w *subspace.Subspace) (rankon
 		res.Starts++
 	}
 	if res.X == nil {
-		res.X, res.Y = make([]float64, m), make([]float64, n)
-		res.X[0], res.Y[0] = 1, 1
-		res.Upper, _ = rankone.Verify(w, res.X, res.Y)
+		res.X, res.Y, res.Upper = rankone.TrivialWitness(w)
 	}
 	res.Elapsed = time.Since(begin)
 	return res, ctx.Err()
