@@ -207,7 +207,11 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	lam = math.Min(lam, 1)
 	bestEst := res.Value
 
-	// Evaluate cells, in parallel, into their own slots.
+	// Evaluate cells, in parallel, into their own slots. Once ctx is done
+	// the remaining cells are skipped and the caller abandons the batch:
+	// the bound lam is valid without it (it bounds h over the parents, which
+	// were popped with keys counted in lam), so a deadline waits for at
+	// most one cell per worker.
 	eval := func(cells []*cell, vecs [][]float64) {
 		var wg sync.WaitGroup
 		next := make(chan int)
@@ -218,6 +222,9 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				s := side{w: w, onX: sd.onX, d: d, p: sd.p, form: sd.form}
 				c := make([]float64, d)
 				for i := range next {
+					if ctx.Err() != nil {
+						continue
+					}
 					cl := cells[i]
 					cl.centre(c, d)
 					v := make([]float64, sd.p)
@@ -242,6 +249,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	}
 
 	var front cellHeap
+	sinceFull := 0 // cells evaluated since the last full re-bounding pass
 	nodes := 0
 	maxPruned := 0.0
 	status := rankone.LimitReached
@@ -251,13 +259,18 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		c := &cell{face: 0}
 		vecs := make([][]float64, 1)
 		eval([]*cell{c}, vecs)
-		nodes = 1
-		lam = math.Min(lam, c.fbar)
-		x, y := sd.witness([]float64{1}, vecs[0])
-		if u, err := rankone.Verify(w, x, y); err == nil && u < res.Upper {
-			res.X, res.Y, res.Upper = x, y, u
+		if ctx.Err() != nil {
+			// The cell may be unevaluated: keep the flattening's lam.
+			status, why = rankone.Cancelled, "deadline or cancellation"
+		} else {
+			nodes = 1
+			lam = math.Min(lam, c.fbar)
+			x, y := sd.witness([]float64{1}, vecs[0])
+			if u, err := rankone.Verify(w, x, y); err == nil && u < res.Upper {
+				res.X, res.Y, res.Upper = x, y, u
+			}
+			status = rankone.GapReached
 		}
-		status = rankone.GapReached
 	} else {
 		// Initial cells: each face split into 4 per coordinate (2 when that
 		// would not fit); refuse sizes whose first split cannot fit.
@@ -285,6 +298,10 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		for {
 			vecs := make([][]float64, len(pending))
 			eval(pending, vecs)
+			if ctx.Err() != nil {
+				status, why = rankone.Cancelled, "deadline or cancellation"
+				break
+			}
 			nodes += len(pending)
 			// Candidates in order: raise the incumbent.
 			bi := -1
@@ -316,29 +333,56 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 					heap.Push(&front, c)
 				}
 			}
-			// Global bound: the largest bound over live and pruned cells. A key
-			// computed with an older (larger) Λ is still valid but loose, so
-			// stale tops are re-bounded with the current Λ (lazy update),
-			// which may lower Λ again, until the top is fresh.
-			for {
-				top := maxPruned
-				for len(front) > 0 && front[0].lam > lam {
-					c := heap.Pop(&front).(*cell)
+			// Global bound: the largest key over live and pruned cells. Every
+			// key bounds h on its cell; one computed with an older (larger) Λ
+			// is valid but loose. Each batch re-bounds at most 64 stale cells
+			// at the top with the current Λ and lowers Λ to the top key. Every
+			// time the cells evaluated since the last full pass reach the
+			// frontier's size N, a full pass re-bounds every cell, iterating
+			// Λ ↦ max(pruned, max_c bound(c, Λ)) up to three times (each value
+			// valid, so the iteration may stop anywhere), then heapifies once:
+			// O(N) work per N evaluations. The schedule counts cells, not time,
+			// so the result does not depend on the machine. (Re-bounding
+			// every stale cell after each change of Λ, as a plain lazy heap
+			// would, costs O(N log N) per batch once N is large and the keys
+			// are close: seen to stall a search for seconds.)
+			for k := 0; k < 64 && len(front) > 0 && front[0].lam > lam; k++ {
+				c := heap.Pop(&front).(*cell)
+				c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
+				if c.key <= thresh {
+					maxPruned = math.Max(maxPruned, c.key)
+				} else {
+					heap.Push(&front, c)
+				}
+			}
+			lam = math.Min(lam, topBound(front, maxPruned))
+			sinceFull += len(pending)
+			if sinceFull >= len(front) {
+				sinceFull = 0
+				for pass := 0; pass < 3 && ctx.Err() == nil; pass++ {
+					t := maxPruned
+					for _, c := range front {
+						t = math.Max(t, cellBound(c.fbar, c.r, lam))
+					}
+					done := t >= lam*(1-1e-12)
+					lam = math.Min(lam, t)
+					if done {
+						break
+					}
+				}
+				keep := front[:0]
+				for _, c := range front {
 					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
 					if c.key <= thresh {
 						maxPruned = math.Max(maxPruned, c.key)
 					} else {
-						heap.Push(&front, c)
+						keep = append(keep, c)
 					}
 				}
-				top = math.Max(top, maxPruned)
-				if len(front) > 0 {
-					top = math.Max(top, front[0].key)
-				}
-				if top >= lam {
-					break
-				}
-				lam = top
+				clear(front[len(keep):])
+				front = keep
+				heap.Init(&front)
+				lam = math.Min(lam, topBound(front, maxPruned))
 			}
 			gate.Report(rankone.Progress{Searcher: b.Name(), Nodes: nodes, Frontier: len(front),
 				Upper: res.Upper, Lower: lowerFromH(lam)})
@@ -362,17 +406,20 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			pending = pending[:0:0]
 			// A batch holds at most 16 splits and about 4096 cells, so that a
 			// deadline is noticed promptly even for large d.
+			putBack := 0
 			for len(pending) < min(batch*(1<<(d-1)), max(1<<(d-1), 4096)) && len(front) > 0 {
 				c := heap.Pop(&front).(*cell)
 				if c.lam > lam {
 					// Stale key: re-bound with the current Λ; if the cell is
-					// no longer the best, put it back (lazy best-first).
+					// no longer the best, put it back (lazy best-first, at
+					// most 64 times a batch: see the global bound above).
 					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
 					if c.key <= thresh {
 						maxPruned = math.Max(maxPruned, c.key)
 						continue
 					}
-					if len(front) > 0 && c.key < front[0].key {
+					if putBack < 64 && len(front) > 0 && c.key < front[0].key {
+						putBack++
 						heap.Push(&front, c)
 						continue
 					}
@@ -405,6 +452,15 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		return res, err
 	}
 	return res, nil
+}
+
+// topBound is the largest key over the frontier and the pruned cells: a
+// valid bound on h* (each key bounds its cell; the cells cover the sphere).
+func topBound(front cellHeap, maxPruned float64) float64 {
+	if len(front) > 0 {
+		return math.Max(maxPruned, front[0].key)
+	}
+	return maxPruned
 }
 
 // done reports whether the requested gap is reached.

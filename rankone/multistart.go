@@ -82,7 +82,9 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		workers = runtime.GOMAXPROCS(0)
 	}
 	workers = min(workers, starts)
-	outs := make([]startOut, starts)
+	// outs grows as starts finish (under mu): a large Starts cut short by a
+	// deadline costs no up-front allocation.
+	var outs []startOut
 	next := make(chan int)
 	var wg sync.WaitGroup
 	var mu sync.Mutex
@@ -94,6 +96,9 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		go func() {
 			defer wg.Done()
 			for i := range next {
+				if ctx.Err() != nil {
+					continue // cancelled: drain without starting (the start stays not done)
+				}
 				o := &oracle{w: w}
 				x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
 				ms.startPoint(o, i, x, y)
@@ -102,8 +107,12 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 				if err != nil {
 					u = 1
 				}
-				outs[i] = startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, done: true}
+				out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, done: true}
 				mu.Lock()
+				if i >= len(outs) {
+					outs = append(outs, make([]startOut, i+1-len(outs))...)
+				}
+				outs[i] = out
 				done++
 				best = math.Min(best, u)
 				gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
@@ -112,7 +121,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		}()
 	}
 feed:
-	for i := 0; i < starts; i++ {
+	for i := 0; i < starts && ctx.Err() == nil; i++ {
 		select {
 		case next <- i:
 		case <-ctx.Done():

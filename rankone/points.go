@@ -347,6 +347,10 @@ func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, 
 	var pts []Point
 	var bad error
 	for i, d := range dirs {
+		if err := ctx.Err(); err != nil {
+			sortPoints(pts)
+			return pts, err // the points so far, each with a valid Upper
+		}
 		x, y := make([]float64, m), make([]float64, n)
 		if len(d) == m {
 			copy(x, d)

@@ -135,6 +135,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		z.SetSym(i, i, alpha)
 	}
 	y := make([]float64, k)
+	var mch chol // the Schur complement's factor, storage reused
 	sol := &Solution{Status: IterationLimit}
 	var best *Solution // the iterate with the smallest worst measure
 	measure := func(s *Solution) float64 { return math.Max(s.RelGap, math.Max(s.PrimalInfeas, s.DualInfeas)) }
@@ -219,6 +220,9 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 			return xr.Data[i*xr.Stride+j]
 		}
 		for j := 0; j < k; j++ {
+			if j%64 == 0 && ctx.Err() != nil {
+				break // noticed below
+			}
 			ej := full[j]
 			for i := 0; i <= j; i++ {
 				var t float64
@@ -230,22 +234,34 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 				m.SetSym(i, j, t)
 			}
 		}
-		var mch mat.Cholesky
-		if !mch.Factorize(m) {
+		cancelled := func(err error) (*Solution, error) {
+			sol.Status = Cancelled
+			fill(sol, p, c, x, y, z, it, bn, cn)
+			return sol, err
+		}
+		if err := ctx.Err(); err != nil {
+			return cancelled(err)
+		}
+		mraw := m.RawSymmetric().Data
+		ok, err := mch.factor(ctx, mraw, k)
+		if err != nil {
+			return cancelled(err)
+		}
+		if !ok {
 			// Near the optimum M becomes ill-conditioned: regularise its
 			// diagonal slightly (this only perturbs the search direction).
 			var dmax float64
 			for i := 0; i < k; i++ {
 				dmax = math.Max(dmax, m.At(i, i))
 			}
-			ok := false
 			for _, eps := range []float64{1e-14, 1e-12, 1e-10} {
-				mr := mat.NewSymDense(k, append([]float64(nil), m.RawSymmetric().Data...))
 				for i := 0; i < k; i++ {
-					mr.SetSym(i, i, mr.At(i, i)+eps*dmax)
+					mraw[i*k+i] += eps * dmax
 				}
-				if mch.Factorize(mr) {
-					ok = true
+				if ok, err = mch.factor(ctx, mraw, k); err != nil {
+					return cancelled(err)
+				}
+				if ok {
 					break
 				}
 			}
@@ -271,15 +287,8 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 			for i := range rhs {
 				rhs[i] = inner(p.A[i], &r) - rp[i]
 			}
-			dyv := mat.NewVecDense(k, nil)
-			if err := mch.SolveVecTo(dyv, mat.NewVecDense(k, rhs)); err != nil {
-				// gonum reports a large condition number as an error but
-				// still returns the solution; only other errors stop.
-				if _, ill := err.(mat.Condition); !ill {
-					return nil, nil, nil
-				}
-			}
-			dy := dyv.RawVector().Data
+			mch.solve(rhs)
+			dy := rhs
 			dz := atOp(dy)
 			dz.AddSym(dz, rd)
 			var dxf mat.Dense
