@@ -10,6 +10,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/eigen"
 	"github.com/segre-lab/segre/internal/sdp"
 	"github.com/segre-lab/segre/internal/verified"
 	"github.com/segre-lab/segre/rankone"
@@ -294,11 +295,8 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s
 	// reshaping has top left singular vector ≈ x and right vector ≈ (y_p y_q),
 	// whose symmetric n×n form has top eigenvector ≈ ±y. Then polish.
-	var es mat.EigenSym
-	if es.Factorize(sol.X, true) {
-		var vecs mat.Dense
-		es.VectorsTo(&vecs)
-		top := mat.Col(nil, dim-1, &vecs)
+	if _, vecs, ok := eigen.Sym(sol.X, true); ok {
+		top := mat.Col(nil, dim-1, vecs)
 		var svd mat.SVD
 		if svd.Factorize(mat.NewDense(m, e.s, top), mat.SVDThin) {
 			var u, v mat.Dense
@@ -349,11 +347,10 @@ func eigenBoundDense(w *subspace.Subspace) (float64, error) {
 			sc.SetSym(i, j, e.chat[i*dim+j]/math.Sqrt(e.dval(i)*e.dval(j)))
 		}
 	}
-	var es mat.EigenSym
-	if !es.Factorize(sc, false) {
+	v, _, ok := eigen.Sym(sc, false)
+	if !ok {
 		return 1, fmt.Errorf("sos: eigen-decomposition failed")
 	}
-	v := es.Values(nil)
 	t := v[len(v)-1] * (1 + 1e-12)
 	return math.Min(1, e.bound(t, make([]float64, dim*dim))), nil
 }

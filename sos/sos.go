@@ -33,6 +33,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/eigen"
 	"github.com/segre-lab/segre/internal/sdp"
 	"github.com/segre-lab/segre/internal/verified"
 	"github.com/segre-lab/segre/rankone"
@@ -98,10 +99,8 @@ func Verify(w *subspace.Subspace, c Certificate) (float64, error) {
 	// Each entry of P̂ + K is rounded once: the error matrix has entries
 	// ≤ u|entry|, so norm ≤ u‖P̂ + K‖_F (upper-bounded below).
 	round := accurate.MulUp(accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, L*L+2)))
-	var es mat.EigenSym
 	guess := math.NaN()
-	if es.Factorize(sum, false) {
-		v := es.Values(nil)
+	if v, _, ok := eigen.Sym(sum, false); ok {
 		guess = v[len(v)-1]
 	}
 	ub := accurate.AddUp(accurate.AddUp(verified.MaxEigUpper(sum, guess), delta), round)
@@ -278,11 +277,10 @@ func finishResult(ctx context.Context, res rankone.Result, begin time.Time, err 
 // RankOne reports whether the moment matrix is numerically rank one
 // (λ₂ ≤ tol·λ₁), in which case the relaxation is exact.
 func RankOne(x *mat.SymDense, tol float64) bool {
-	var es mat.EigenSym
-	if !es.Factorize(x, false) {
+	v, _, ok := eigen.Sym(x, false)
+	if !ok {
 		return false
 	}
-	v := es.Values(nil)
 	if len(v) < 2 {
 		return true
 	}
@@ -290,14 +288,12 @@ func RankOne(x *mat.SymDense, tol float64) bool {
 }
 
 func round(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
-	var es mat.EigenSym
-	if !es.Factorize(x, true) {
+	_, vecs, ok := eigen.Sym(x, true)
+	if !ok {
 		return nil, nil, false
 	}
-	var vecs mat.Dense
-	es.VectorsTo(&vecs)
 	L := m * n
-	top := mat.Col(nil, L-1, &vecs)
+	top := mat.Col(nil, L-1, vecs)
 	var svd mat.SVD
 	if !svd.Factorize(mat.NewDense(m, n, top), mat.SVDThin) {
 		return nil, nil, false

@@ -396,10 +396,8 @@ func (w *Subspace) ExtensionBound(maxOrder int) (upper float64, ok bool) {
 	errN := accurate.MulUp(accurate.Gamma(m+1), accurate.SqrtUp(accurate.UpperRel(absF, dim*dim+1)))
 	errG := accurate.MulUp(accurate.Gamma(L), accurate.SumSqUpper(w.q))
 	errR := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
-	var es mat.EigenSym
 	guess := math.NaN()
-	if es.Factorize(a, false) {
-		vals := es.Values(nil)
+	if vals, _, ok := eigen.Sym(a, false); ok {
 		guess = vals[len(vals)-1]
 	}
 	lam := verified.MaxEigUpper(a, guess)

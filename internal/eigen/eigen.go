@@ -45,7 +45,6 @@ func Top(apply func(dst, src []float64), x []float64, steps, restarts int, tol f
 	wv := make([]float64, p)
 	alpha := make([]float64, steps)
 	beta := make([]float64, steps)
-	var es mat.EigenSym // fallback for the small tridiagonal problem
 	// ritz computes the top Ritz pair of the first k Lanczos vectors into x
 	// and reports whether it has converged.
 	svec := make([]float64, steps)
@@ -59,14 +58,12 @@ func Top(apply func(dst, src []float64), x []float64, steps, restarts int, tol f
 					t.SetSym(i, i+1, beta[i])
 				}
 			}
-			if !es.Factorize(t, true) {
+			vals, vecs, ok := Sym(t, true)
+			if !ok {
 				theta = alpha[0]
 				copy(x, v[:p])
 				return true
 			}
-			vals := es.Values(nil)
-			var vecs mat.Dense
-			es.VectorsTo(&vecs)
 			th = vals[k-1]
 			for i := 0; i < k; i++ {
 				svec[i] = vecs.At(i, k-1)

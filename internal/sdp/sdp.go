@@ -18,6 +18,8 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/eigen"
 )
 
 // Entry is one entry (I ≤ J, 0-based) of a symmetric sparse matrix: the
@@ -398,11 +400,10 @@ func maxStep(s, d *mat.SymDense) float64 {
 			ts.SetSym(i, j, -(t.At(i, j)+t.At(j, i))/2)
 		}
 	}
-	var es mat.EigenSym
-	if !es.Factorize(ts, false) {
+	v, _, ok := eigen.Sym(ts, false)
+	if !ok {
 		return 0
 	}
-	v := es.Values(nil)
 	top := v[len(v)-1]
 	if top <= 1e-12 {
 		return 1e6
