@@ -1,0 +1,78 @@
+package suite_test
+
+import (
+	"context"
+	"encoding/binary"
+	"math"
+	"testing"
+
+	"github.com/segre-lab/segre/net"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/sos"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// FuzzStrategies runs every bundled strategy on subspaces built from
+// arbitrary bytes: shape (r ≤ 4 matrices of size m, n ≤ 3) from the first
+// bytes, entries from the rest as float64 bit patterns (NaN, ±Inf,
+// subnormals, huge and tiny magnitudes). Bad input must be refused by New
+// with an error; on an accepted subspace no strategy may panic, every
+// interval must be proper, and no certified Lower may exceed any certified
+// Upper (both proven for the same stored subspace: derived, no tolerance).
+func FuzzStrategies(f *testing.F) {
+	seed := func(r, m, n byte, vals ...float64) []byte {
+		b := []byte{r, m, n}
+		for _, v := range vals {
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+		}
+		return b
+	}
+	f.Add(seed(1, 2, 2, 1e150, 0, 0, 1e-150))
+	f.Add(seed(2, 2, 2, 1, 0, 0, 1, 0, 1, -1, 0))
+	f.Add(seed(3, 3, 3, 0, 1, 0, -1, 0, 0, 0, 0, 0, 0, 0, 1, 0, 0, 0, -1, 0, 0, 0, 0, 0, 0, 0, 1, 0, -1, 0))
+	f.Add(seed(2, 1, 3, 5e-324, 1, 2, 3, math.MaxFloat64, -1))
+	f.Add(seed(1, 3, 1, math.NaN(), 1, 2))
+	ctx := context.Background()
+	f.Fuzz(func(t *testing.T, data []byte) {
+		if len(data) < 3 {
+			return
+		}
+		r, m, n := int(data[0]%4)+1, int(data[1]%3)+1, int(data[2]%3)+1
+		vals := make([]float64, r*m*n)
+		words := (len(data) - 3) / 8
+		for i := range vals {
+			if words > 0 {
+				vals[i] = math.Float64frombits(binary.LittleEndian.Uint64(data[3+8*(i%words):]))
+			}
+		}
+		b := subspace.Basis{Count: r, Rows: m, Cols: n, Data: vals}
+		w, err := subspace.New(b, subspace.Options{})
+		if err != nil {
+			return
+		}
+		searchers := []rankone.Searcher{
+			rankone.Flattening{}, &rankone.ALS{}, &rankone.Power{}, &rankone.TrustRegion{},
+			&rankone.MultiStart{Starts: 3, Workers: 1}, &rankone.AllPoints{},
+			&net.BranchBound{Gap: 1e-2, MaxNodes: 300, Workers: 1}, &net.Exhaustive{Epsilon: 0.3, Workers: 1},
+			&sos.Bound{MaxIter: 40},
+		}
+		var bs []bound
+		for _, s := range searchers {
+			res, err := s.Search(ctx, w)
+			if err != nil && res.X == nil {
+				continue
+			}
+			if !(res.Lower >= 0 && res.Upper <= 1 && res.Lower <= res.Upper) {
+				t.Fatalf("%s gives [%v, %v]", rankone.NameOf(s), res.Lower, res.Upper)
+			}
+			bs = append(bs, bound{rankone.NameOf(s), res.Lower, res.Upper})
+		}
+		for _, a := range bs {
+			for _, c := range bs {
+				if a.lower > c.upper {
+					t.Fatalf("Lower %v of %s exceeds Upper %v of %s", a.lower, a.name, c.upper, c.name)
+				}
+			}
+		}
+	})
+}
