@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -51,6 +52,16 @@ func ReadFile(path string, maxBytes int64) (Basis, error) {
 	return b, nil
 }
 
+// readFailure reports a failed read: a file that ends early is malformed
+// (ErrFormat, with what says where); any other error (a device error, a
+// directory) is reported as the read error it is.
+func readFailure(err error, what string) error {
+	if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
+		return fmt.Errorf("%w: %s", ErrFormat, what)
+	}
+	return fmt.Errorf("subspace: reading: %w", err)
+}
+
 func limitOf(maxBytes int64) int64 {
 	if maxBytes <= 0 {
 		return DefaultMaxBytes
@@ -75,7 +86,7 @@ func checkShape(r, m, n int64, maxBytes int64) (int, error) {
 func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
 	var pre [8]byte
 	if _, err := io.ReadFull(rd, pre[:]); err != nil {
-		return Basis{}, fmt.Errorf("%w: npy: truncated preamble", ErrFormat)
+		return Basis{}, readFailure(err, "npy: truncated preamble")
 	}
 	if !bytes.Equal(pre[:6], npyMagic) {
 		return Basis{}, fmt.Errorf("%w: npy: bad magic bytes", ErrFormat)
@@ -85,13 +96,13 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
 	case 1:
 		var l [2]byte
 		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Basis{}, fmt.Errorf("%w: npy: truncated header length", ErrFormat)
+			return Basis{}, readFailure(err, "npy: truncated header length")
 		}
 		hlen = int(binary.LittleEndian.Uint16(l[:]))
 	case 2, 3:
 		var l [4]byte
 		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Basis{}, fmt.Errorf("%w: npy: truncated header length", ErrFormat)
+			return Basis{}, readFailure(err, "npy: truncated header length")
 		}
 		h := binary.LittleEndian.Uint32(l[:])
 		if h > 1<<20 {
@@ -103,7 +114,7 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
 	}
 	hdr := make([]byte, hlen)
 	if _, err := io.ReadFull(rd, hdr); err != nil {
-		return Basis{}, fmt.Errorf("%w: npy: truncated header", ErrFormat)
+		return Basis{}, readFailure(err, "npy: truncated header")
 	}
 	descr, fortran, shape, err := parseNPYHeader(string(hdr))
 	if err != nil {
@@ -133,7 +144,7 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
 		want := min((total-len(flat))*size, len(buf))
 		got, err := io.ReadFull(rd, buf[:want])
 		if err != nil {
-			return Basis{}, fmt.Errorf("%w: npy: data truncated after %d of %d values", ErrFormat, len(flat)+got/size, total)
+			return Basis{}, readFailure(err, fmt.Sprintf("npy: data truncated after %d of %d values", len(flat)+got/size, total))
 		}
 		for off := 0; off < got; off += size {
 			v, err := conv(buf[off : off+size])
@@ -360,7 +371,10 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) {
 		for len(tokens) == 0 {
 			if !sc.Scan() {
 				if err := sc.Err(); err != nil {
-					return "", line, fmt.Errorf("%w: text: line %d: %v", ErrFormat, line+1, err)
+					if errors.Is(err, bufio.ErrTooLong) {
+						return "", line, fmt.Errorf("%w: text: line %d: %v", ErrFormat, line+1, err)
+					}
+					return "", line, fmt.Errorf("subspace: reading text at line %d: %w", line+1, err)
 				}
 				return "", line, io.EOF
 			}

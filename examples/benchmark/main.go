@@ -140,6 +140,10 @@ func run(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "benchmark: %v\n", err)
 		return 2
 	}
+	if fs.NArg() > 0 {
+		fmt.Fprintf(stderr, "benchmark: unexpected argument %q (did you mean \"benchmark merge FILES\"?)\n", fs.Arg(0))
+		return 2
+	}
 	var insts []suite.Instance
 	switch *sweep {
 	case "default":
@@ -259,23 +263,38 @@ func runMerge(args []string, stderr io.Writer) int {
 	return 0
 }
 
-// writeAtomic writes a file through a temporary name in the same directory.
+// writeAtomic writes a file through a temporary name in the same directory,
+// synced and then renamed over path: an interrupted or failed run leaves
+// either the old file or the complete new one, and no temporary file.
 func writeAtomic(path string, fill func(io.Writer) error) error {
 	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
 	if err != nil {
 		return err
 	}
 	tmp := f.Name()
-	if err := fill(f); err != nil {
+	fail := func(err error) error {
 		f.Close()
 		os.Remove(tmp)
 		return err
+	}
+	if err := fill(f); err != nil {
+		return fail(err)
+	}
+	if err := f.Chmod(0o644); err != nil {
+		return fail(err)
+	}
+	if err := f.Sync(); err != nil {
+		return fail(err)
 	}
 	if err := f.Close(); err != nil {
 		os.Remove(tmp)
 		return err
 	}
-	return os.Rename(tmp, path)
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
+		return err
+	}
+	return nil
 }
 
 func reports(dir string, recs []suite.Record, planted bool) error {

@@ -80,17 +80,51 @@ func TestBadInputExitTwo(t *testing.T) {
 	os.WriteFile(bad, []byte("2 2 2\n1 2 3\n"), 0o644)
 	nan := filepath.Join(dir, "nan.txt")
 	os.WriteFile(nan, []byte("1 1 2\nNaN 1\n"), 0o644)
+	write := func(name string, b []byte) string {
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, b, 0o644)
+		return p
+	}
+	var npy bytes.Buffer
+	subspace.WriteNPY(&npy, subspace.Basis{Count: 2, Rows: 3, Cols: 3, Data: make([]float64, 18)})
+	whole := npy.Bytes()
+	var good bytes.Buffer
+	eye := make([]float64, 64)
+	for i := 0; i < 8; i++ {
+		eye[i*8+i] = 1
+	}
+	subspace.WriteNPY(&good, subspace.Basis{Count: 1, Rows: 8, Cols: 8, Data: eye})
+	goodData := good.Bytes()
 	cases := [][]string{
 		{"-nosuchflag"},
 		{"-time", "-1s"},
+		{"-time", "soon"},
 		{"-starts", "0"},
+		{"-starts", "2000000"},
 		{"-tol", "2"},
+		{"-tol", "NaN"},
+		{"-gap", "0"},
+		{"-gap", "1"},
+		{"-seed", "-1"},
 		{"-maxbytes", "-5"},
 		{"a", "b"},
 		{filepath.Join(dir, "missing.npy")},
 		{bad},
 		{nan},
 		{dir},
+		{write("empty.txt", nil)},
+		{write("zeros.npy", whole)}, // all-zero basis
+		{write("trunc.npy", whole[:len(whole)-5])},                   // data cut short
+		{write("header.npy", whole[:20])},                            // header cut short
+		{write("magic.npy", append([]byte("NUMPX"), whole[6:]...))}, // wrong magic: read as text, which fails
+		{write("huge.npy", npyHeader("(100000, 100000, 100000)"))},   // declared size beyond any limit
+		{"-maxbytes", "100", write("big.npy", goodData)},             // the size guard, settable
+		{write("inf.txt", []byte("1 1 2\n1 +Inf\n"))},
+		{write("short.txt", []byte("1 2 2\n1 2 3\n"))},
+		{write("shape.txt", []byte("1 0 2\n"))},
+	}
+	if _, err := os.Stat("/proc/self/mem"); err == nil {
+		cases = append(cases, []string{"/proc/self/mem"}) // opens, but reading fails (EIO)
 	}
 	for _, args := range cases {
 		code, out, errs := runCmd(args...)
@@ -103,5 +137,17 @@ func TestBadInputExitTwo(t *testing.T) {
 		if strings.Count(strings.TrimSpace(errs), "\n") != 0 || !strings.HasPrefix(errs, "certify: ") {
 			t.Errorf("%v: stderr %q, want one line", args, errs)
 		}
+		t.Logf("%v: %s", args[len(args)-1], strings.TrimSpace(errs))
 	}
+}
+
+// npyHeader returns a version-1 .npy header of little-endian float64 with
+// the given shape and no data.
+func npyHeader(shape string) []byte {
+	h := "{'descr': '<f8', 'fortran_order': False, 'shape': " + shape + ", }"
+	for (10+len(h)+1)%64 != 0 {
+		h += " "
+	}
+	h += "\n"
+	return append([]byte{0x93, 'N', 'U', 'M', 'P', 'Y', 1, 0, byte(len(h)), byte(len(h) >> 8)}, h...)
 }
