@@ -57,6 +57,8 @@ type BranchBound struct {
 	// MaxNodes bounds the cells evaluated; zero means 5e7.
 	MaxNodes int
 	// MaxFrontier bounds the cells kept waiting (memory); zero means 1<<21.
+	// It is further capped so that the frontier stays within half the
+	// subspace's MemoryLimit.
 	MaxFrontier int
 	// Workers is the number of goroutines; zero means GOMAXPROCS.
 	Workers int
@@ -181,6 +183,14 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	maxFront := b.MaxFrontier
 	if maxFront <= 0 {
 		maxFront = 1 << 21
+	}
+	// The frontier may use at most half the subspace's memory limit: a cell
+	// holds its box (2(d−1) floats), a float32 warm start of the exact side
+	// (p entries) and about 160 bytes of fields, slice headers and heap slot.
+	{
+		d, p := min(w.Rows(), w.Cols()), max(w.Rows(), w.Cols())
+		cellBytes := int64(160 + 16*(d-1) + 4*p)
+		maxFront = int(min(int64(maxFront), w.MemoryLimit()/2/cellBytes))
 	}
 	workers := b.Workers
 	if workers <= 0 {

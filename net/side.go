@@ -28,7 +28,7 @@ func newSide(w *subspace.Subspace) side {
 	if w.Rows() > w.Cols() {
 		s = side{w: w, onX: false, d: w.Cols(), p: w.Rows()}
 	}
-	if w.BlockFormBytes(s.onX) <= blockFormLimit {
+	if f := w.BlockFormBytes(s.onX); f <= blockFormLimit && f <= w.MemoryLimit()/2 {
 		s.form = w.NewBlockForm(s.onX)
 	}
 	return s

@@ -35,6 +35,9 @@ func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
 		t *mat.SymDense
 		d float64
 	}{{t1, d1}, {t2, d2}} {
+		if s.t == nil {
+			continue // not formed: beyond the subspace's memory limit
+		}
 		x := make([]float64, s.t.SymmetricDim())
 		guess, _ := TopEigen(symApply(s.t), x, 0, 0, 1e-13)
 		ub := accurate.AddUp(verified.MaxEigUpper(s.t, guess), s.d)

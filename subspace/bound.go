@@ -137,21 +137,43 @@ type partialTraces struct {
 // Tr₂(P_W) ⪯ n·I − fl(ΣS_tS_tᵀ) + (γ_{sn}‖S‖_F² + (η/(1+η))‖S‖_F²)·I; the
 // rounding of the diagonal n − T_ii adds 2u·max|T_ii|. Likewise for Tr₁.
 // If η ≥ 1/2 the deltas are +Inf.
+//
+// A side of order p is formed only if TraceFits(p); otherwise its matrix is
+// nil and its δ is +Inf (the bound Tr ⪯ +Inf·I is true and says nothing).
 func (w *Subspace) PartialTraces() (t1 *mat.SymDense, d1 float64, t2 *mat.SymDense, d2 float64) {
 	w.ptOnce.Do(w.computePartialTraces)
-	return mat.NewSymDense(w.m, append([]float64(nil), w.pt.t1.RawSymmetric().Data...)), w.pt.d1,
-		mat.NewSymDense(w.n, append([]float64(nil), w.pt.t2.RawSymmetric().Data...)), w.pt.d2
+	cp := func(s *mat.SymDense, p int) *mat.SymDense {
+		if s == nil {
+			return nil
+		}
+		return mat.NewSymDense(p, append([]float64(nil), s.RawSymmetric().Data...))
+	}
+	return cp(w.pt.t1, w.m), w.pt.d1, cp(w.pt.t2, w.n), w.pt.d2
+}
+
+// TraceFits reports whether a partial trace of order p and the work of
+// bounding its top eigenvalue (four p×p matrices: the cached one, the copy
+// returned, the verified Cholesky test's factor and its shifted copy) fit
+// in the MemoryLimit.
+func (w *Subspace) TraceFits(p int) bool {
+	return 32*float64(p)*float64(p) <= float64(w.limit)
 }
 
 func (w *Subspace) computePartialTraces() {
 	m, n, L := w.m, w.n, w.m*w.n
-	a := blas64.Symmetric{N: m, Stride: m, Data: make([]float64, m*m), Uplo: blas.Upper}
-	b := blas64.Symmetric{N: n, Stride: n, Data: make([]float64, n*n), Uplo: blas.Upper}
-	for t := 0; t < w.s; t++ {
-		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: w.q[t*L : (t+1)*L]}, 1, a)
+	fitA, fitB := w.TraceFits(m), w.TraceFits(n)
+	var a, b blas64.Symmetric
+	if fitA {
+		a = blas64.Symmetric{N: m, Stride: m, Data: make([]float64, m*m), Uplo: blas.Upper}
+		for t := 0; t < w.s; t++ {
+			blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: w.q[t*L : (t+1)*L]}, 1, a)
+		}
 	}
-	if w.s > 0 {
-		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}, 0, b)
+	if fitB {
+		b = blas64.Symmetric{N: n, Stride: n, Data: make([]float64, n*n), Uplo: blas.Upper}
+		if w.s > 0 {
+			blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}, 0, b)
+		}
 	}
 	fill := func(s blas64.Symmetric) {
 		for i := 0; i < s.N; i++ {
@@ -176,10 +198,24 @@ func (w *Subspace) computePartialTraces() {
 		f := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1+w.eta)), sf)
 		d1 = accurate.AddUp(form1, f)
 		d2 = accurate.AddUp(form2, f)
-		d1 = accurate.AddUp(d1, complementDiag(a, float64(n)))
-		d2 = accurate.AddUp(d2, complementDiag(b, float64(m)))
+		if fitA {
+			d1 = accurate.AddUp(d1, complementDiag(a, float64(n)))
+		}
+		if fitB {
+			d2 = accurate.AddUp(d2, complementDiag(b, float64(m)))
+		}
 	}
-	w.pt = partialTraces{t1: mat.NewSymDense(m, a.Data), t2: mat.NewSymDense(n, b.Data), d1: d1, d2: d2}
+	w.pt = partialTraces{d1: d1, d2: d2}
+	if fitA {
+		w.pt.t1 = mat.NewSymDense(m, a.Data)
+	} else {
+		w.pt.d1 = math.Inf(1)
+	}
+	if fitB {
+		w.pt.t2 = mat.NewSymDense(n, b.Data)
+	} else {
+		w.pt.d2 = math.Inf(1)
+	}
 }
 
 // complementDiag replaces s by c·I − s in place and returns the bound

@@ -72,7 +72,10 @@ type Options struct {
 	Tol float64
 	// MaxBytes limits the working storage New may allocate; inputs that
 	// would need more are refused with ErrTooLarge before any allocation.
-	// Zero means DefaultMaxBytes; negative is invalid.
+	// The Subspace keeps it as its MemoryLimit: derived structures (the
+	// partial traces, the searches' block forms and frontiers) that would
+	// exceed it are not built. Zero means DefaultMaxBytes; negative is
+	// invalid.
 	MaxBytes int64
 }
 
@@ -83,6 +86,7 @@ type Subspace struct {
 	s       int       // number of stored vectors
 	q       []float64 // s×(m·n), row t is stored vector t
 	tol     float64
+	limit   int64 // Options.MaxBytes (or its default)
 
 	inputs, zeros int
 	recon         float64 // ‖B̂Π − QR‖_F / ‖B̂‖_F for the unit-normalised input B̂
@@ -92,6 +96,11 @@ type Subspace struct {
 	ptOnce sync.Once
 	pt     partialTraces
 }
+
+// MemoryLimit returns the working-storage limit in bytes given to New
+// (Options.MaxBytes, or DefaultMaxBytes). Methods and strategies that
+// would build a structure larger than this leave it out (see each one).
+func (w *Subspace) MemoryLimit() int64 { return w.limit }
 
 // Rows returns m. Cols returns n. Dim returns the numerical dimension k of W.
 func (w *Subspace) Rows() int { return w.m }
@@ -212,7 +221,7 @@ func New(b Basis, opt Options) (*Subspace, error) {
 
 	f := pivotedQR(a, rr, L, tol)
 	k := f.k
-	w := &Subspace{m: m, n: n, k: k, tol: tol, inputs: r, zeros: zeros}
+	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: r, zeros: zeros}
 	w.comp = L-k < k
 
 	var refl []float64
