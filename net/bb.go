@@ -213,7 +213,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	res.X, res.Y, res.Upper, res.Value = inc.X, inc.Y, inc.Upper, inc.Value
 	res.Evaluations += inc.Evaluations
 	hLow := hFromUpper(res.Upper)
-	lam, _ := rankone.FlatteningBound(w)
+	lam, _ := rankone.FlatteningBoundContext(ctx, w)
 	lam = math.Min(lam, 1)
 	bestEst := res.Value
 

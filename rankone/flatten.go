@@ -2,12 +2,10 @@ package rankone
 
 import (
 	"context"
+	"math"
 	"time"
 
-	"gonum.org/v1/gonum/mat"
-
 	"github.com/segre-lab/segre/internal/accurate"
-	"github.com/segre-lab/segre/internal/verified"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -18,33 +16,25 @@ import (
 // h(x, y) = Σ_t (xᵀQ_t y)² ≤ Σ_t ‖Q_tᵀx‖²‖y‖² = xᵀ(Σ_t Q_tQ_tᵀ)x
 // ≤ λmax(Σ_t Q_tQ_tᵀ) (Cauchy–Schwarz in each term), and symmetrically
 // h ≤ λmax(Σ_t Q_tᵀQ_t); also h ≤ 1. Σ_t Q_tQ_tᵀ is the partial trace
-// Tr₂(P_W), so the argument holds for any PSD operator below it. The
-// Subspace supplies float matrices T with Tr(P_W) ⪯ T + δI for the stored
-// basis (subspace.PartialTraces, where the rounding and the loss of
-// orthogonality are accounted); λmax(T) is bounded above by the verified
-// Cholesky test (internal/verified), so
-// h* ≤ min(1, λ̄max(T1) + δ1, λ̄max(T2) + δ2) =: hUpper and
-// d* = √(1 − h*) ≥ √(1 − hUpper), evaluated with downward rounding.
+// Tr₂(P_W), so the argument holds for any PSD operator below it.
+// subspace.FlatteningBounds proves upper bounds h1 ≥ λmax(Tr₂ P_W) and
+// h2 ≥ λmax(Tr₁ P_W) for the stored basis (rounding and the loss of
+// orthogonality accounted, λmax by the verified Cholesky test), so
+// h* ≤ min(1, h1, h2) =: hUpper and d* = √(1 − h*) ≥ √(1 − hUpper),
+// evaluated with downward rounding.
 //
 // The bound is exact for one matrix (k = 1: λmax(QQᵀ) = σ₁², Eckart–Young)
 // and useless (hUpper = 1) when W is large.
 func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
-	t1, d1, t2, d2 := w.PartialTraces()
-	hUpper = 1
-	for _, s := range []struct {
-		t *mat.SymDense
-		d float64
-	}{{t1, d1}, {t2, d2}} {
-		if s.t == nil {
-			continue // not formed: beyond the subspace's memory limit
-		}
-		x := make([]float64, s.t.SymmetricDim())
-		guess, _ := TopEigen(symApply(s.t), x, 0, 0, 1e-13)
-		ub := accurate.AddUp(verified.MaxEigUpper(s.t, guess), s.d)
-		if ub < hUpper {
-			hUpper = ub
-		}
-	}
+	return FlatteningBoundContext(context.Background(), w)
+}
+
+// FlatteningBoundContext is FlatteningBound under a context: when ctx is
+// done first it returns whatever it has proven (at worst hUpper = 1,
+// lower = 0), within one block of 16 rows of a Cholesky test.
+func FlatteningBoundContext(ctx context.Context, w *subspace.Subspace) (hUpper, lower float64) {
+	h1, h2 := w.FlatteningBounds(ctx)
+	hUpper = math.Min(1, math.Min(h1, h2))
 	if hUpper < 0 {
 		hUpper = 0
 	}
@@ -66,10 +56,17 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 	start := time.Now()
 	o := &oracle{w: w}
 	res := Result{FoundBy: f.Name(), Starts: 1}
-	hu, lo := FlatteningBound(w)
+	hu, lo := FlatteningBoundContext(ctx, w)
 	_ = hu
 	if lo > 0 {
 		res.Lower, res.LowerBy = lo, "flattening"
+	}
+	if ctx.Err() != nil {
+		// Cut short: the witness e₁e₁ᵀ with Upper = 1, valid since 0 ∈ W
+		// (certifying a better one costs a pass over the basis).
+		res.X, res.Y, res.Upper = unitVec(w.Rows()), unitVec(w.Cols()), 1
+		res.Status, res.Elapsed = Cancelled, time.Since(start)
+		return res, ctx.Err()
 	}
 	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
 	spectralStart(o, x, y)

@@ -1,6 +1,7 @@
 package subspace
 
 import (
+	"context"
 	"math"
 
 	"gonum.org/v1/gonum/blas"
@@ -112,12 +113,6 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 	return accurate.SqrtUp(accurate.UpperRel(ss, L+1)) // L squares and L−1 additions: within γ_{L+1}
 }
 
-// partialTraces caches the flattening matrices and their bounds.
-type partialTraces struct {
-	t1, t2 *mat.SymDense
-	d1, d2 float64
-}
-
 // PartialTraces returns symmetric T1 (m×m) and T2 (n×n) and numbers
 // δ1, δ2 ≥ 0 such that, in exact arithmetic for the stored subspace,
 //
@@ -136,19 +131,19 @@ type partialTraces struct {
 // (W⊥ stored): Tr₂(P_W) = n·I − Tr₂(P_{W⊥}) and P_{W⊥} ⪰ SᵀS/(1+η), so
 // Tr₂(P_W) ⪯ n·I − fl(ΣS_tS_tᵀ) + (γ_{sn}‖S‖_F² + (η/(1+η))‖S‖_F²)·I; the
 // rounding of the diagonal n − T_ii adds 2u·max|T_ii|. Likewise for Tr₁.
-// If η ≥ 1/2 the deltas are +Inf.
-//
-// A side of order p is formed only if TraceFits(p); otherwise its matrix is
-// nil and its δ is +Inf (the bound Tr ⪯ +Inf·I is true and says nothing).
+// A side of order p is formed only if TraceFits(p) and η < 1/2; otherwise
+// its matrix is nil and its δ is +Inf (the bound Tr ⪯ +Inf·I is true and says nothing).
 func (w *Subspace) PartialTraces() (t1 *mat.SymDense, d1 float64, t2 *mat.SymDense, d2 float64) {
-	w.ptOnce.Do(w.computePartialTraces)
-	cp := func(s *mat.SymDense, p int) *mat.SymDense {
+	t1, d1 = w.partialTrace(context.Background(), true)
+	t2, d2 = w.partialTrace(context.Background(), false)
+	cp := func(s *mat.SymDense) *mat.SymDense {
 		if s == nil {
 			return nil
 		}
+		p := s.SymmetricDim()
 		return mat.NewSymDense(p, append([]float64(nil), s.RawSymmetric().Data...))
 	}
-	return cp(w.pt.t1, w.m), w.pt.d1, cp(w.pt.t2, w.n), w.pt.d2
+	return cp(t1), d1, cp(t2), d2
 }
 
 // TraceFits reports whether a partial trace of order p and the work of
@@ -159,63 +154,82 @@ func (w *Subspace) TraceFits(p int) bool {
 	return 32*float64(p)*float64(p) <= float64(w.limit)
 }
 
-func (w *Subspace) computePartialTraces() {
+// partialTrace returns the cached T1, δ1 (rows) or T2, δ2 (!rows) of
+// PartialTraces, computing that side on first use; callers must not
+// modify the matrix. If ctx is done during the computation it returns nil,
+// +Inf and caches nothing.
+func (w *Subspace) partialTrace(ctx context.Context, rows bool) (*mat.SymDense, float64) {
+	i := 1
+	if rows {
+		i = 0
+	}
+	w.ptMu[i].Lock()
+	defer w.ptMu[i].Unlock()
+	if !w.ptDone[i] {
+		t, d, ok := w.computePartialTrace(ctx, rows)
+		if !ok {
+			return nil, math.Inf(1)
+		}
+		w.pt[i], w.ptDelta[i], w.ptDone[i] = t, d, true
+	}
+	return w.pt[i], w.ptDelta[i]
+}
+
+// computePartialTrace forms one side of PartialTraces (see its derivation),
+// checking ctx between blocks of the product; ok is false if ctx was done.
+func (w *Subspace) computePartialTrace(ctx context.Context, rows bool) (t *mat.SymDense, d float64, ok bool) {
 	m, n, L := w.m, w.n, w.m*w.n
-	fitA, fitB := w.TraceFits(m), w.TraceFits(n)
-	var a, b blas64.Symmetric
-	if fitA {
-		a = blas64.Symmetric{N: m, Stride: m, Data: make([]float64, m*m), Uplo: blas.Upper}
+	p, other, inner := m, n, w.s*n // order, the other side, terms per entry
+	if !rows {
+		p, other, inner = n, m, w.s*m
+	}
+	if !w.TraceFits(p) || w.eta >= 0.5 {
+		return nil, math.Inf(1), true
+	}
+	a := blas64.Symmetric{N: p, Stride: p, Data: make([]float64, p*p), Uplo: blas.Upper}
+	if rows {
 		for t := 0; t < w.s; t++ {
+			if ctx.Err() != nil {
+				return nil, 0, false
+			}
 			blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: w.q[t*L : (t+1)*L]}, 1, a)
 		}
-	}
-	if fitB {
-		b = blas64.Symmetric{N: n, Stride: n, Data: make([]float64, n*n), Uplo: blas.Upper}
-		if w.s > 0 {
-			blas64.Syrk(blas.Trans, 1, blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}, 0, b)
+	} else if w.s > 0 {
+		// T2 = FᵀF for F = the stored rows as an (s·m)×n matrix, by column
+		// blocks [c0, c1) of its upper triangle: rows [0, c0) by Gemm, the
+		// diagonal block by Syrk.
+		f := blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}
+		cols := func(c0, c1 int) blas64.General {
+			return blas64.General{Rows: f.Rows, Cols: c1 - c0, Stride: n, Data: w.q[c0:]}
 		}
-	}
-	fill := func(s blas64.Symmetric) {
-		for i := 0; i < s.N; i++ {
-			for j := 0; j < i; j++ {
-				s.Data[i*s.N+j] = s.Data[j*s.N+i]
+		const tile = 32
+		for c0 := 0; c0 < n; c0 += tile {
+			if ctx.Err() != nil {
+				return nil, 0, false
 			}
+			c1 := min(n, c0+tile)
+			if c0 > 0 {
+				blas64.Gemm(blas.Trans, blas.NoTrans, 1, cols(0, c0), cols(c0, c1), 0,
+					blas64.General{Rows: c0, Cols: c1 - c0, Stride: p, Data: a.Data[c0:]})
+			}
+			blas64.Syrk(blas.Trans, 1, cols(c0, c1), 0,
+				blas64.Symmetric{N: c1 - c0, Stride: p, Data: a.Data[c0*p+c0:], Uplo: blas.Upper})
 		}
 	}
-	fill(a)
-	fill(b)
+	for i := 0; i < p; i++ {
+		for j := 0; j < i; j++ {
+			a.Data[i*p+j] = a.Data[j*p+i]
+		}
+	}
 	sf := accurate.SumSqUpper(w.q)
-	form1 := accurate.MulUp(accurate.Gamma(w.s*n+1), sf)
-	form2 := accurate.MulUp(accurate.Gamma(w.s*m+1), sf)
-	var d1, d2 float64
-	if w.eta >= 0.5 {
-		d1, d2 = math.Inf(1), math.Inf(1)
-	} else if !w.comp {
-		f := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1-w.eta)), sf)
-		d1 = accurate.AddUp(form1, f)
-		d2 = accurate.AddUp(form2, f)
+	d = accurate.MulUp(accurate.Gamma(inner+1), sf)
+	if !w.comp {
+		d = accurate.AddUp(d, accurate.MulUp(accurate.Up(w.eta/accurate.Down(1-w.eta)), sf))
 	} else {
-		f := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1+w.eta)), sf)
-		d1 = accurate.AddUp(form1, f)
-		d2 = accurate.AddUp(form2, f)
-		if fitA {
-			d1 = accurate.AddUp(d1, complementDiag(a, float64(n)))
-		}
-		if fitB {
-			d2 = accurate.AddUp(d2, complementDiag(b, float64(m)))
-		}
+		d = accurate.AddUp(d, accurate.MulUp(accurate.Up(w.eta/accurate.Down(1+w.eta)), sf))
+		d = accurate.AddUp(d, complementDiag(a, float64(other)))
 	}
-	w.pt = partialTraces{d1: d1, d2: d2}
-	if fitA {
-		w.pt.t1 = mat.NewSymDense(m, a.Data)
-	} else {
-		w.pt.d1 = math.Inf(1)
-	}
-	if fitB {
-		w.pt.t2 = mat.NewSymDense(n, b.Data)
-	} else {
-		w.pt.d2 = math.Inf(1)
-	}
+	return mat.NewSymDense(p, a.Data), d, true
 }
 
 // complementDiag replaces s by c·I − s in place and returns the bound

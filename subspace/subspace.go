@@ -30,6 +30,7 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
 )
@@ -93,8 +94,14 @@ type Subspace struct {
 	orthFl        float64 // ‖SSᵀ − I‖_F as computed
 	eta           float64 // proven bound on ‖SSᵀ − I‖₂
 
-	ptOnce sync.Once
-	pt     partialTraces
+	ptMu    [2]sync.Mutex // the partial traces, each side computed on first complete use
+	ptDone  [2]bool
+	pt      [2]*mat.SymDense
+	ptDelta [2]float64
+
+	flatMu         sync.Mutex // guards the cached FlatteningBounds
+	flatDone       bool
+	flatH1, flatH2 float64
 }
 
 // MemoryLimit returns the working-storage limit in bytes given to New

@@ -56,12 +56,13 @@ func MinEigLower(a mat.Symmetric, guess float64) float64 {
 			}
 		}
 	}
-	return minEigLowerDense(full, n, guess)
+	return minEigLowerDense(full, n, guess, nil)
 }
 
 // minEigLowerDense is MinEigLower for a full symmetric row-major matrix,
-// which it may not modify.
-func minEigLowerDense(full []float64, n int, guess float64) float64 {
+// which it may not modify. If stop is non-nil and reports true, the test is
+// abandoned and the Gershgorin bound (valid, maybe loose) returned.
+func minEigLowerDense(full []float64, n int, guess float64, stop func() bool) float64 {
 	var rowMax float64
 	for i := 0; i < n; i++ {
 		var r float64
@@ -88,10 +89,14 @@ func minEigLowerDense(full []float64, n int, guess float64) float64 {
 		if s <= best {
 			break // the Gershgorin bound is already at least as good
 		}
-		if lb, ok := shiftedCholesky(full, work, n, s); ok {
+		lb, ok := shiftedCholesky(full, work, n, s, stop)
+		if ok {
 			if lb > best {
 				best = lb
 			}
+			break
+		}
+		if stop != nil && stop() {
 			break
 		}
 		margin *= 16
@@ -101,6 +106,14 @@ func minEigLowerDense(full []float64, n int, guess float64) float64 {
 
 // MaxEigUpper returns a proven upper bound on λmax(A), by MinEigLower(−A).
 func MaxEigUpper(a mat.Symmetric, guess float64) float64 {
+	return MaxEigUpperStop(a, guess, nil)
+}
+
+// MaxEigUpperStop is MaxEigUpper that gives up the Cholesky test as soon as
+// stop (checked every 16 rows of the factorisation) reports true, returning
+// the Gershgorin bound instead: still proven, possibly loose. Long tests
+// (order in the thousands) use it to honour a deadline.
+func MaxEigUpperStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 	if sd, ok := a.(*mat.SymDense); ok {
 		n := sd.SymmetricDim()
 		if n == 0 {
@@ -114,7 +127,7 @@ func MaxEigUpper(a mat.Symmetric, guess float64) float64 {
 				full[i*n+j], full[j*n+i] = v, v
 			}
 		}
-		return -minEigLowerDense(full, n, -guess)
+		return -minEigLowerDense(full, n, -guess, stop)
 	}
 	return -MinEigLower(negated{a}, -guess)
 }
@@ -126,7 +139,7 @@ func (m negated) T() mat.Matrix       { return m }
 
 // shiftedCholesky runs the test described on MinEigLower for shift s and
 // returns the proven bound on success.
-func shiftedCholesky(a, l []float64, n int, s float64) (float64, bool) {
+func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float64, bool) {
 	var maxDiag float64
 	for i := 0; i < n; i++ {
 		for j := 0; j < i; j++ {
@@ -139,6 +152,9 @@ func shiftedCholesky(a, l []float64, n int, s float64) (float64, bool) {
 	var frob float64 // Σ L̃ᵢⱼ², evaluated in floating point
 	var maxL float64
 	for i := 0; i < n; i++ {
+		if stop != nil && i%16 == 15 && stop() {
+			return 0, false
+		}
 		ri := l[i*n : i*n+i+1]
 		for j := 0; j < i; j++ {
 			rj := l[j*n : j*n+j]

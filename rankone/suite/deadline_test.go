@@ -43,6 +43,14 @@ func longCases(short bool) []longCase {
 	many := 1 << 20 // more starts than any deadline here allows
 	return []longCase{
 		{"flattening", func() rankone.Searcher { return rankone.Flattening{} }, big},
+		// A verified Cholesky test of order 1500 (s·m = 2560 > n): seconds
+		// of work that a deadline must cut short.
+		{"flattening/order-1500", func() rankone.Searcher { return rankone.Flattening{} }, func() suite.Instance {
+			if short {
+				return suite.Random(12, 150, 20, 6)
+			}
+			return suite.Random(64, 1500, 40, 6)
+		}},
 		{"als", func() rankone.Searcher { return &rankone.ALS{MaxIter: 1 << 30} }, big},
 		{"power", func() rankone.Searcher { return &rankone.Power{MaxIter: 1 << 30} }, big},
 		{"trust-region", func() rankone.Searcher { return &rankone.TrustRegion{MaxIter: 1 << 30} }, big},
