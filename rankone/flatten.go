@@ -61,10 +61,8 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 	if lo > 0 {
 		res.Lower, res.LowerBy = lo, "flattening"
 	}
-	if ctx.Err() != nil {
-		// Cut short: the witness e₁e₁ᵀ with Upper = 1, valid since 0 ∈ W
-		// (certifying a better one costs a pass over the basis).
-		res.X, res.Y, res.Upper = unitVec(w.Rows()), unitVec(w.Cols()), 1
+	if ctx.Err() != nil { // cut short: the trivial witness, no more search
+		res.X, res.Y, res.Upper = TrivialWitness(w)
 		res.Status, res.Elapsed = Cancelled, time.Since(start)
 		return res, ctx.Err()
 	}
