@@ -35,7 +35,8 @@ type Tensor struct {
 }
 
 func (t Tensor) check() error {
-	if t.M <= 0 || t.N <= 0 || t.P <= 0 || len(t.Data) != t.M*t.N*t.P {
+	if t.M <= 0 || t.N <= 0 || t.P <= 0 || t.M > math.MaxInt32 || t.N > math.MaxInt32 || t.P > math.MaxInt32 ||
+		float64(t.M)*float64(t.N)*float64(t.P) != float64(len(t.Data)) || len(t.Data) != t.M*t.N*t.P {
 		return fmt.Errorf("%w: %d×%d×%d with %d entries", ErrShape, t.M, t.N, t.P, len(t.Data))
 	}
 	for i, v := range t.Data {
@@ -378,8 +379,10 @@ func FitALS(ctx context.Context, t Tensor, rank, starts int, seed uint64, maxIte
 	if err := t.check(); err != nil {
 		return nil, err
 	}
-	if rank <= 0 {
-		return nil, fmt.Errorf("%w: rank %d", ErrShape, rank)
+	// The rank of an m×n×p tensor is at most min(mn, np, mp) (common
+	// practice: each slice family spans at most that many rank-one terms).
+	if maxRank := min(t.M*t.N, t.N*t.P, t.M*t.P); rank <= 0 || rank > maxRank {
+		return nil, fmt.Errorf("%w: rank %d, need 1 ≤ rank ≤ min(mn, np, mp) = %d", ErrShape, rank, maxRank)
 	}
 	var best *Decomposition
 	for st := 0; st < max(starts, 1); st++ {

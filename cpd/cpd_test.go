@@ -143,3 +143,46 @@ func TestFitALS(t *testing.T) {
 		t.Errorf("ALS relative error %v", d.RelError)
 	}
 }
+
+// Bad tensors and ranks are errors, not panics, and the input is not
+// changed.
+func TestBadInput(t *testing.T) {
+	ctx := context.Background()
+	good := Tensor{M: 2, N: 2, P: 2, Data: []float64{1, 0, 0, 1, 0, 1, 1, 0}}
+	keep := append([]float64(nil), good.Data...)
+	nan := Tensor{M: 1, N: 1, P: 2, Data: []float64{math.NaN(), 1}}
+	cases := []struct {
+		name string
+		run  func() error
+	}{
+		{"negative size", func() error { _, err := Decompose(ctx, Tensor{M: -1, N: 2, P: 2}, Options{}); return err }},
+		{"short data", func() error {
+			_, err := Decompose(ctx, Tensor{M: 2, N: 2, P: 2, Data: make([]float64, 7)}, Options{})
+			return err
+		}},
+		{"overflowing size", func() error {
+			_, err := Decompose(ctx, Tensor{M: 1 << 40, N: 1 << 40, P: 1 << 40, Data: make([]float64, 8)}, Options{})
+			return err
+		}},
+		{"NaN", func() error { _, err := Decompose(ctx, nan, Options{}); return err }},
+		{"zero tensor", func() error {
+			_, err := Decompose(ctx, Tensor{M: 2, N: 2, P: 2, Data: make([]float64, 8)}, Options{})
+			return err
+		}},
+		{"rank too large", func() error { _, err := Decompose(ctx, good, Options{Rank: 5}); return err }},
+		{"negative rank", func() error { _, err := Decompose(ctx, good, Options{Rank: -1}); return err }},
+		{"ALS rank 0", func() error { _, err := FitALS(ctx, good, 0, 1, 1, 10); return err }},
+		{"ALS rank 1e12", func() error { _, err := FitALS(ctx, good, 1e12, 1, 1, 10); return err }},
+		{"ALS NaN", func() error { _, err := FitALS(ctx, nan, 1, 1, 1, 10); return err }},
+	}
+	for _, c := range cases {
+		if err := c.run(); err == nil {
+			t.Errorf("%s: no error", c.name)
+		}
+	}
+	for i := range keep {
+		if good.Data[i] != keep[i] {
+			t.Fatal("input changed")
+		}
+	}
+}
