@@ -203,25 +203,10 @@ func (w *Subspace) computePartialTrace(ctx context.Context, rows bool) (t *mat.S
 			blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: m, Cols: n, Stride: n, Data: w.q[t*L : (t+1)*L]}, 1, a)
 		}
 	} else if w.s > 0 {
-		// T2 = FᵀF for F = the stored rows as an (s·m)×n matrix, by column
-		// blocks [c0, c1) of its upper triangle: rows [0, c0) by Gemm, the
-		// diagonal block by Syrk.
+		// T2 = FᵀF for F = the stored rows as an (s·m)×n matrix, in tiles.
 		f := blas64.General{Rows: w.s * m, Cols: n, Stride: n, Data: w.q}
-		cols := func(c0, c1 int) blas64.General {
-			return blas64.General{Rows: f.Rows, Cols: c1 - c0, Stride: n, Data: w.q[c0:]}
-		}
-		const tile = 32
-		for c0 := 0; c0 < n; c0 += tile {
-			if ctx.Err() != nil {
-				return nil, 0, false
-			}
-			c1 := min(n, c0+tile)
-			if c0 > 0 {
-				blas64.Gemm(blas.Trans, blas.NoTrans, 1, cols(0, c0), cols(c0, c1), 0,
-					blas64.General{Rows: c0, Cols: c1 - c0, Stride: p, Data: a.Data[c0:]})
-			}
-			blas64.Syrk(blas.Trans, 1, cols(c0, c1), 0,
-				blas64.Symmetric{N: c1 - c0, Stride: p, Data: a.Data[c0*p+c0:], Uplo: blas.Upper})
+		if !gramTiles(blas.Trans, f, a, func() bool { return ctx.Err() != nil }) {
+			return nil, 0, false
 		}
 	}
 	for i := 0; i < p; i++ {

@@ -62,7 +62,9 @@ func (w *Subspace) FlatteningBounds(ctx context.Context) (h1, h2 float64) {
 				copy(g[a*s*n+t*n:a*s*n+(t+1)*n], w.q[t*m*n+a*n:t*m*n+(a+1)*n])
 			}
 		}
-		h1 = bound(gram(blas.Trans, m, s*n, g), accurate.AddUp(accurate.MulUp(accurate.Gamma(m+1), sf), etaPart))
+		if a, ok := gram(blas.Trans, m, s*n, g, stop); ok {
+			h1 = bound(a, accurate.AddUp(accurate.MulUp(accurate.Gamma(m+1), sf), etaPart))
+		}
 	case !altRows:
 		if t1, d1 := w.partialTrace(ctx, true); t1 != nil {
 			h1 = bound(t1, d1)
@@ -70,7 +72,9 @@ func (w *Subspace) FlatteningBounds(ctx context.Context) (h1, h2 float64) {
 	}
 	switch {
 	case altCols && w.TraceFits(s*m):
-		h2 = bound(gram(blas.NoTrans, s*m, n, w.q), accurate.AddUp(accurate.MulUp(accurate.Gamma(n+1), sf), etaPart))
+		if a, ok := gram(blas.NoTrans, s*m, n, w.q, stop); ok {
+			h2 = bound(a, accurate.AddUp(accurate.MulUp(accurate.Gamma(n+1), sf), etaPart))
+		}
 	case !altCols:
 		if t2, d2 := w.partialTrace(ctx, false); t2 != nil {
 			h2 = bound(t2, d2)
@@ -85,15 +89,53 @@ func (w *Subspace) FlatteningBounds(ctx context.Context) (h1, h2 float64) {
 }
 
 // gram returns fl(AAᵀ) (NoTrans) or fl(AᵀA) (Trans) for the rows×cols
-// row-major A, as a full symmetric matrix.
-func gram(tr blas.Transpose, rows, cols int, a []float64) *mat.SymDense {
+// row-major A, as a symmetric matrix (upper triangle), or ok = false if
+// stop reported true first.
+func gram(tr blas.Transpose, rows, cols int, a []float64, stop func() bool) (*mat.SymDense, bool) {
 	p := rows
 	if tr == blas.Trans {
 		p = cols
 	}
 	out := blas64.Symmetric{N: p, Stride: p, Data: make([]float64, p*p), Uplo: blas.Upper}
-	if rows > 0 && cols > 0 {
-		blas64.Syrk(tr, 1, blas64.General{Rows: rows, Cols: cols, Stride: cols, Data: a}, 0, out)
+	if rows > 0 && cols > 0 && !gramTiles(tr, blas64.General{Rows: rows, Cols: cols, Stride: cols, Data: a}, out, stop) {
+		return nil, false
 	}
-	return mat.NewSymDense(p, out.Data)
+	return mat.NewSymDense(p, out.Data), true
+}
+
+// gramTiles sets the upper triangle of c to fl(AAᵀ) (NoTrans) or fl(AᵀA)
+// (Trans) in column tiles of 32, calling stop between tiles; it returns
+// false, leaving c incomplete, if stop reported true. Every entry is one
+// dot product of the inner dimension, summed in some order, so the
+// rounding bounds of a single Syrk apply unchanged.
+func gramTiles(tr blas.Transpose, a blas64.General, c blas64.Symmetric, stop func() bool) bool {
+	p := c.N
+	// part(i0, i1) is the slice of A whose Gram block gives rows/columns
+	// [i0, i1) of C: rows of A (NoTrans) or columns of A (Trans).
+	part := func(i0, i1 int) blas64.General {
+		if tr == blas.NoTrans {
+			return blas64.General{Rows: i1 - i0, Cols: a.Cols, Stride: a.Stride, Data: a.Data[i0*a.Stride:]}
+		}
+		return blas64.General{Rows: a.Rows, Cols: i1 - i0, Stride: a.Stride, Data: a.Data[i0:]}
+	}
+	const tile = 32
+	for c0 := 0; c0 < p; c0 += tile {
+		if stop != nil && stop() {
+			return false
+		}
+		c1 := min(p, c0+tile)
+		if c0 > 0 {
+			// C[0:c0, c0:c1] = part(0, c0)·part(c0, c1)ᵀ (NoTrans) or
+			// part(0, c0)ᵀ·part(c0, c1) (Trans).
+			ta, tb := blas.NoTrans, blas.Trans
+			if tr == blas.Trans {
+				ta, tb = blas.Trans, blas.NoTrans
+			}
+			blas64.Gemm(ta, tb, 1, part(0, c0), part(c0, c1), 0,
+				blas64.General{Rows: c0, Cols: c1 - c0, Stride: c.Stride, Data: c.Data[c0:]})
+		}
+		blas64.Syrk(tr, 1, part(c0, c1), 0,
+			blas64.Symmetric{N: c1 - c0, Stride: c.Stride, Data: c.Data[c0*c.Stride+c0:], Uplo: blas.Upper})
+	}
+	return true
 }

@@ -23,6 +23,7 @@
 package subspace
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -144,6 +145,13 @@ func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 
 // New builds the subspace spanned by the matrices of b. b is not modified.
 func New(b Basis, opt Options) (*Subspace, error) {
+	return NewContext(context.Background(), b, opt)
+}
+
+// NewContext is New under a context: the factorisation checks ctx between
+// its steps (each a few milliseconds for inputs of tens of megabytes) and
+// returns ctx.Err(), wrapped, when it is done first. Nothing is kept.
+func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	if opt.Tol < 0 || opt.Tol >= 1 || math.IsNaN(opt.Tol) {
 		return nil, fmt.Errorf("%w: Tol = %v, want 0 ≤ Tol < 1", ErrOption, opt.Tol)
 	}
@@ -226,7 +234,12 @@ func New(b Basis, opt Options) (*Subspace, error) {
 		return nil, fmt.Errorf("%w: all %d matrices of %d×%d", ErrZero, r, m, n)
 	}
 
-	f := pivotedQR(a, rr, L, tol)
+	stop := func() bool { return ctx.Err() != nil }
+	cancelled := func() (*Subspace, error) { return nil, fmt.Errorf("subspace: %w", ctx.Err()) }
+	f := pivotedQR(a, rr, L, tol, stop)
+	if stop() {
+		return cancelled()
+	}
 	k := f.k
 	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: r, zeros: zeros}
 	w.comp = L-k < k
@@ -235,18 +248,21 @@ func New(b Basis, opt Options) (*Subspace, error) {
 	if w.comp {
 		refl = append([]float64(nil), a[:k*L]...)
 	}
-	f.formQ(a, L)
+	f.formQ(a, L, stop)
 	qw := a[:k*L]
-	w.recon = reconstruction(b.Data, orig, scale, f, qw, L)
+	w.recon = reconstruction(b.Data, orig, scale, f, qw, L, stop)
 	if w.comp {
 		a = nil // release the input copy before the complement is built
 		w.s = L - k
-		w.q = complementBasis(refl, f.beta, k, L)
+		w.q = complementBasis(refl, f.beta, k, L, stop)
 	} else {
 		w.s = k
 		w.q = qw[: k*L : k*L]
 	}
-	w.orthFl, w.eta = orthogonality(w.q, w.s, L)
+	w.orthFl, w.eta = orthogonality(w.q, w.s, L, stop)
+	if stop() {
+		return cancelled()
+	}
 	return w, nil
 }
 
@@ -286,7 +302,9 @@ type qrFactors struct {
 // Householder QR with column pivoting; partial norms downdated as in LAPACK's
 // xLAQP2, recomputed when cancellation makes the downdate unreliable).
 // It stops at the first step where every remaining partial norm is ≤ tol.
-func pivotedQR(a []float64, rr, L int, tol float64) *qrFactors {
+// stop is checked before every step; when it reports true the
+// factorisation ends early (the caller discards it).
+func pivotedQR(a []float64, rr, L int, tol float64, stop func() bool) *qrFactors {
 	f := &qrFactors{perm: make([]int, rr)}
 	nrm := make([]float64, rr)
 	ref := make([]float64, rr)
@@ -298,7 +316,7 @@ func pivotedQR(a []float64, rr, L int, tol float64) *qrFactors {
 	tol3z := math.Sqrt(0x1p-52)
 	steps := min(rr, L)
 	w := make([]float64, rr)
-	for j := 0; j < steps; j++ {
+	for j := 0; j < steps && !stop(); j++ {
 		p := j
 		for i := j + 1; i < rr; i++ {
 			if nrm[i] > nrm[p] {
@@ -366,10 +384,11 @@ func pivotedQR(a []float64, rr, L int, tol float64) *qrFactors {
 
 // formQ overwrites rows 0..k−1 of a with the first k columns of
 // H_0 H_1 ⋯ H_{k−1} (backward accumulation, as LAPACK's xORG2R).
-func (f *qrFactors) formQ(a []float64, L int) {
+// It returns early, leaving a unusable, when stop reports true.
+func (f *qrFactors) formQ(a []float64, L int, stop func() bool) {
 	k := f.k
 	w := make([]float64, k)
-	for j := k - 1; j >= 0; j-- {
+	for j := k - 1; j >= 0 && !stop(); j-- {
 		v := a[j*L+j : (j+1)*L]
 		if rest := k - j - 1; rest > 0 {
 			for i := j + 1; i < k; i++ {
@@ -394,7 +413,8 @@ func (f *qrFactors) formQ(a []float64, L int) {
 
 // complementBasis returns the last L−k columns of H_0 ⋯ H_{k−1}, an
 // orthonormal basis of the orthogonal complement of the first k, as rows.
-func complementBasis(refl, beta []float64, k, L int) []float64 {
+// It returns early, with an unusable result, when stop reports true.
+func complementBasis(refl, beta []float64, k, L int, stop func() bool) []float64 {
 	s := L - k
 	out := make([]float64, s*L)
 	for t := 0; t < s; t++ {
@@ -404,7 +424,7 @@ func complementBasis(refl, beta []float64, k, L int) []float64 {
 		return out
 	}
 	w := make([]float64, s)
-	for j := k - 1; j >= 0; j-- {
+	for j := k - 1; j >= 0 && !stop(); j-- {
 		v := blas64.Vector{N: L - j, Data: refl[j*L+j : (j+1)*L], Inc: 1}
 		blk := blas64.General{Rows: s, Cols: L - j, Stride: L, Data: out[j:]}
 		wv := blas64.Vector{N: s, Data: w, Inc: 1}
@@ -416,13 +436,14 @@ func complementBasis(refl, beta []float64, k, L int) []float64 {
 
 // reconstruction returns ‖B̂Π − QR‖_F/‖B̂‖_F, recomputing each unit-normalised
 // input column from the caller's data, in chunks to bound the memory.
-func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q []float64, L int) float64 {
+// It returns early, with a meaningless value, when stop reports true.
+func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q []float64, L int, stop func() bool) float64 {
 	rr, k := len(orig), f.k
 	const chunk = 32
 	buf := make([]float64, chunk*L)
 	rc := make([]float64, chunk*k)
 	var ss float64
-	for c0 := 0; c0 < rr; c0 += chunk {
+	for c0 := 0; c0 < rr && !stop(); c0 += chunk {
 		c1 := min(c0+chunk, rr)
 		nc := c1 - c0
 		for j := c0; j < c1; j++ {
@@ -461,12 +482,17 @@ func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q
 // Frobenius norm Σ‖s_i‖² = ‖S‖_F². So ‖G − I‖₂ ≤ ‖Ĝ − I‖_F + γ_L‖S‖_F², each
 // term evaluated with upward rounding (Ĝ_ij − δ_ij is rounded once more, and
 // the squares and sum add s²+1 roundings).
-func orthogonality(q []float64, s, L int) (computed, bound float64) {
+//
+// The Gram matrix is formed in column tiles with stop checked between them;
+// if it reports true the result is meaningless (the caller discards it).
+func orthogonality(q []float64, s, L int, stop func() bool) (computed, bound float64) {
 	if s == 0 {
 		return 0, 0
 	}
 	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
-	blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, 0, g)
+	if !gramTiles(blas.NoTrans, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, g, stop) {
+		return math.Inf(1), math.Inf(1)
+	}
 	var ss float64
 	for i := 0; i < s; i++ {
 		for j := i; j < s; j++ {

@@ -1,6 +1,8 @@
 package subspace
 
 import (
+	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -353,5 +355,33 @@ func TestBlockForm(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// NewContext: a done context is reported as an error wrapping its cause,
+// nothing is returned, and the input is unchanged; a live one gives the same
+// Subspace as New (derived: the same operations in the same order).
+func TestNewContext(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 9))
+	data := make([]float64, 40*6*6)
+	for i := range data {
+		data[i] = rng.NormFloat64()
+	}
+	keep := append([]float64(nil), data...)
+	b := Basis{Count: 40, Rows: 6, Cols: 6, Data: data}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if w, err := NewContext(ctx, b, Options{}); w != nil || !errors.Is(err, context.Canceled) {
+		t.Errorf("cancelled: %v, %v", w, err)
+	}
+	for i := range keep {
+		if math.Float64bits(keep[i]) != math.Float64bits(data[i]) {
+			t.Fatal("input changed")
+		}
+	}
+	w1, err1 := New(b, Options{})
+	w2, err2 := NewContext(context.Background(), b, Options{})
+	if err1 != nil || err2 != nil || w1.Dim() != w2.Dim() || w1.OrthogonalityBound() != w2.OrthogonalityBound() {
+		t.Errorf("New and NewContext differ: %v %v", err1, err2)
 	}
 }

@@ -120,14 +120,18 @@ func run(args []string, stdout, stderr io.Writer) int {
 		}
 		source = c.file
 	}
-	w, err := subspace.New(b, subspace.Options{Tol: c.tol, MaxBytes: c.maxBytes})
-	if err != nil {
-		fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
-		return 2
-	}
-
+	// Interrupt (Ctrl-C) stops the orthonormalisation too; -time budgets
+	// the search that follows it.
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
+	w, err := subspace.NewContext(ctx, b, subspace.Options{Tol: c.tol, MaxBytes: c.maxBytes})
+	if err != nil {
+		fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
+		if ctx.Err() != nil {
+			return 1 // interrupted, not bad input
+		}
+		return 2
+	}
 	showProgress := !c.quiet && (!c.asJSON || c.progress)
 	start := time.Now()
 	members := []rankone.Searcher{
