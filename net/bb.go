@@ -374,9 +374,9 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 					for _, c := range front {
 						t = math.Max(t, cellBound(c.fbar, c.r, lam))
 					}
-					done := t >= lam*(1-1e-12)
+					settled := t >= lam*(1-1e-12)
 					lam = math.Min(lam, t)
-					if done {
+					if settled {
 						break
 					}
 				}
