@@ -106,15 +106,16 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 			if ct == 0 {
 				continue
 			}
-			row := w.q[t*L+l0 : t*L+l1]
-			for l, st := range row {
-				ab[l].AddProd(ct, st)
-			}
+			accurate.AddProds(ab, ct, w.q[t*L+l0:t*L+l1])
 		}
 	}
 	var ss float64
+	var rc accurate.ResultConsts // shared: every entry has the same number of terms
 	for l := range acc {
-		r, b := acc[l].Result()
+		if l == 0 || acc[l].K != acc[l-1].K {
+			rc = accurate.NewResultConsts(acc[l].K)
+		}
+		r, b := acc[l].ResultWith(&rc)
 		f := accurate.AddUp(math.Abs(r), b)
 		ss += f * f
 	}

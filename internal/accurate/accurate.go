@@ -130,6 +130,25 @@ func (q *Acc) AddProd(a, b float64) {
 	q.K++
 }
 
+// AddProds does acc[i].AddProd(a, b[i]) for every i, with the same
+// operations in the same order (so bit-identical results), written out so
+// that the hot loops of the certified bounds pay no call per term.
+func AddProds(acc []Acc, a float64, b []float64) {
+	acc = acc[:len(b)]
+	for i, bi := range b {
+		q := &acc[i]
+		p := a * bi
+		e := math.FMA(a, bi, -p)
+		s := q.S + p
+		z := s - q.S
+		sig := (q.S - (s - z)) + (p - z)
+		q.S = s
+		q.C += sig + e
+		q.Abs += math.Abs(p)
+		q.K++
+	}
+}
+
 // Add adds a single term a.
 func (q *Acc) Add(a float64) {
 	s, sig := TwoSum(q.S, a)
@@ -150,16 +169,44 @@ func (q *Acc) Add(a float64) {
 // (1+u)·Σ|pᵢ| and the float sum Abs of the |pᵢ| underestimates Σ|pᵢ| by at
 // most γ_K, hence the UpperRel inflation. Underflow adds Tiny per term.
 func (q *Acc) Result() (r, bound float64) {
-	r = q.S + q.C
-	k := q.K
-	if k < 2 {
-		k = 2
-	}
+	c := NewResultConsts(q.K)
+	return q.ResultWith(&c)
+}
+
+// ResultConsts holds the constants of Result for accumulators of K terms,
+// so that many accumulators of the same length share their computation.
+type ResultConsts struct {
+	k      int     // the K they are for
+	g2     float64 // MulUp(γ_k, γ_k), k = max(K, 2)
+	relAbs float64 // 2·γ_{k+1}, the UpperRel factor of Abs
+	tinyA  float64 // (k+2)·Tiny, UpperRel's underflow slack
+	tinyB  float64 // (K+2)·Tiny
+}
+
+// NewResultConsts returns the constants of Result for K terms.
+func NewResultConsts(K int) ResultConsts {
+	k := max(K, 2)
 	g := Gamma(k)
-	abs := UpperRel(q.Abs, k+1)
-	b := AddUp(MulUp(U, math.Abs(r)), MulUp(MulUp(g, g), abs))
+	return ResultConsts{k: K, g2: MulUp(g, g), relAbs: 2 * Gamma(k+1), tinyA: float64(k+2) * Tiny, tinyB: float64(K+2) * Tiny}
+}
+
+// ResultWith is Result with the constants precomputed; it is Result's own
+// code, so both give the same bits. It panics if c is for another K.
+func (q *Acc) ResultWith(c *ResultConsts) (r, bound float64) {
+	if c.k != q.K {
+		panic("accurate: ResultConsts for another number of terms")
+	}
+	r = q.S + q.C
+	abs := q.Abs
+	if math.IsNaN(abs) {
+		abs = math.Inf(1)
+	} else {
+		// UpperRel(q.Abs, k+1), written out with the cached γ.
+		abs = AddUp(AddUp(abs, MulUp(c.relAbs, abs)), c.tinyA)
+	}
+	b := AddUp(MulUp(U, math.Abs(r)), MulUp(c.g2, abs))
 	b = AddUp(b, MulUp(2*U, b)) // the factor 1/(1−u) ≤ 1 + 2u
-	b = AddUp(b, float64(q.K+2)*Tiny)
+	b = AddUp(b, c.tinyB)
 	return r, b
 }
 
