@@ -188,7 +188,10 @@ func (e *extension) dval(a int) float64 {
 
 // bound proves an upper bound on h* from t and a symmetric K (dim×dim,
 // row-major), as derived above.
-func (e *extension) bound(t float64, k []float64) float64 {
+//
+// A non-nil stop can cut the verified test short (the bound stays valid,
+// only looser).
+func (e *extension) bound(t float64, k []float64, stop func() bool) float64 {
 	dim := e.dim
 	// Orbit sums of K over the full matrix (both triangles).
 	accs := make([]accurate.Acc, e.norbits)
@@ -223,7 +226,7 @@ func (e *extension) bound(t float64, k []float64) float64 {
 	// two additions), so it errs by at most γ₃ times the sum of the
 	// magnitudes of its terms (not of the result: the terms may cancel).
 	round := accurate.MulUp(accurate.Gamma(3), accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
-	mu := verified.MinEigLower(a, 0)
+	mu := verified.MinEigLowerStop(a, 0, stop)
 	mu = accurate.Down(mu - round)
 	ub := t
 	if mu < 0 {
@@ -288,7 +291,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 			}
 		}
 	}
-	hb := e.bound(sol.Dual*(1+1e-12)+1e-15, k)
+	hb := e.bound(sol.Dual*(1+1e-12)+1e-15, k, func() bool { return ctx.Err() != nil })
 	if lo := lowerFromH(hb); lo > 0 {
 		res.Lower, res.LowerBy = lo, "sos level 2"
 	}
@@ -327,14 +330,23 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 // and k·n ≤ 4096 (same value, smaller matrix), else a dense matrix of order
 // m·n(n+1)/2 ≤ 2500.
 func EigenBound(w *subspace.Subspace) (float64, error) {
-	if ub, ok := w.ExtensionBound(4096); ok {
+	return EigenBoundContext(context.Background(), w)
+}
+
+// EigenBoundContext is EigenBound under a context: if ctx is done first it
+// returns 1 (the trivial bound) and ctx.Err().
+func EigenBoundContext(ctx context.Context, w *subspace.Subspace) (float64, error) {
+	if ub, ok := w.ExtensionBoundContext(ctx, 4096); ok {
 		return math.Min(ub, 1), nil
 	}
-	return eigenBoundDense(w)
+	if err := ctx.Err(); err != nil {
+		return 1, err
+	}
+	return eigenBoundDense(ctx, w)
 }
 
 // eigenBoundDense is EigenBound through the dense order-m·n(n+1)/2 matrix.
-func eigenBoundDense(w *subspace.Subspace) (float64, error) {
+func eigenBoundDense(ctx context.Context, w *subspace.Subspace) (float64, error) {
 	e, err := newExtension(w, 2500)
 	if err != nil {
 		return 1, err
@@ -347,10 +359,18 @@ func eigenBoundDense(w *subspace.Subspace) (float64, error) {
 			sc.SetSym(i, j, e.chat[i*dim+j]/math.Sqrt(e.dval(i)*e.dval(j)))
 		}
 	}
-	v, _, ok := eigen.Sym(sc, false)
-	if !ok {
-		return 1, fmt.Errorf("sos: eigen-decomposition failed")
+	if err := ctx.Err(); err != nil {
+		return 1, err
 	}
-	t := v[len(v)-1] * (1 + 1e-12)
-	return math.Min(1, e.bound(t, make([]float64, dim*dim))), nil
+	x := make([]float64, dim)
+	top, _ := eigen.Top(eigen.SymApply(sc), x, 0, 0, 1e-13)
+	if math.IsNaN(top) || math.IsInf(top, 0) {
+		return 1, fmt.Errorf("sos: eigenvalue estimate failed")
+	}
+	t := top * (1 + 1e-12)
+	hb := e.bound(t, make([]float64, dim*dim), func() bool { return ctx.Err() != nil })
+	if err := ctx.Err(); err != nil {
+		return 1, err
+	}
+	return math.Min(1, hb), nil
 }

@@ -74,7 +74,7 @@ func TestLevelTwoBoundAnyK(t *testing.T) {
 			}
 		}
 		for _, tt := range []float64{0.5, 1, 2} {
-			if ub := e.bound(tt, k); ub < hLow {
+			if ub := e.bound(tt, k, nil); ub < hLow {
 				t.Fatalf("bound %v below a certified h %v", ub, hLow)
 			}
 		}
@@ -97,7 +97,7 @@ func TestEigenBoundTwoRoutes(t *testing.T) {
 		if !ok {
 			t.Fatalf("%s: Gram route unavailable", in.Name)
 		}
-		d, err := eigenBoundDense(w)
+		d, err := eigenBoundDense(context.Background(), w)
 		if err != nil {
 			t.Fatal(err)
 		}

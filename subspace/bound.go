@@ -390,23 +390,40 @@ func (w *Subspace) ProjectorBound() (*mat.SymDense, float64) {
 // γ_m·Σ_i|S_t[i][j']||S_t'[i][j]| (Frobenius norm bounded alongside), the
 // float G by γ_L‖S‖_F² in norm (as in the orthogonality bound), and forming
 // ½(G⊗I + N) rounds each entry at most twice.
+//
+// ok is also false when the order-k·n matrix does not fit in the
+// MemoryLimit (TraceFits). The top eigenvalue is estimated by Lanczos and
+// proven by the verified Cholesky test.
 func (w *Subspace) ExtensionBound(maxOrder int) (upper float64, ok bool) {
+	return w.ExtensionBoundContext(context.Background(), maxOrder)
+}
+
+// ExtensionBoundContext is ExtensionBound under a context: when ctx is done
+// first it returns ok = false (nothing proven) after at most one row block
+// of its work.
+func (w *Subspace) ExtensionBoundContext(ctx context.Context, maxOrder int) (upper float64, ok bool) {
 	if w.comp || w.s == 0 {
 		return 1, false
 	}
 	m, n, s, L := w.m, w.n, w.s, w.m*w.n
 	dim := s * n
-	if dim > maxOrder {
+	if dim > maxOrder || !w.TraceFits(dim) {
 		return 1, false
 	}
+	stop := func() bool { return ctx.Err() != nil }
 	if w.eta >= 0.5 {
 		return math.Inf(1), true
 	}
 	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
-	blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: s, Cols: L, Stride: L, Data: w.q}, 0, g)
+	if !gramTiles(blas.NoTrans, blas64.General{Rows: s, Cols: L, Stride: L, Data: w.q}, g, stop) {
+		return 1, false
+	}
 	a := mat.NewSymDense(dim, nil)
 	var absF, fro float64
 	for t := 0; t < s; t++ {
+		if stop() {
+			return 1, false
+		}
 		st := w.q[t*L : (t+1)*L]
 		for j := 0; j < n; j++ {
 			for t2 := t; t2 < s; t2++ {
@@ -440,11 +457,12 @@ func (w *Subspace) ExtensionBound(maxOrder int) (upper float64, ok bool) {
 	errN := accurate.MulUp(accurate.Gamma(m+1), accurate.SqrtUp(accurate.UpperRel(absF, dim*dim+1)))
 	errG := accurate.MulUp(accurate.Gamma(L), accurate.SumSqUpper(w.q))
 	errR := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
-	guess := math.NaN()
-	if vals, _, ok := eigen.Sym(a, false); ok {
-		guess = vals[len(vals)-1]
+	x := make([]float64, dim)
+	guess, _ := eigen.Top(eigen.SymApply(a), x, 0, 0, 1e-13)
+	lam := verified.MaxEigUpperStop(a, guess, stop)
+	if stop() {
+		return 1, false // the test may have fallen back to Gershgorin: valid, but say nothing
 	}
-	lam := verified.MaxEigUpper(a, guess)
 	lam = accurate.AddUp(lam, accurate.MulUp(0.5, accurate.AddUp(errN, errG)))
 	lam = accurate.AddUp(lam, errR)
 	return accurate.Up(math.Max(lam, 0) / accurate.Down(1-w.eta)), true

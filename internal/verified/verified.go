@@ -36,6 +36,13 @@ import (
 // the shift is lowered and the test retried; after repeated failure the
 // Gershgorin bound min_i(a_ii − Σ_{j≠i}|a_ij|), rounded downwards, is returned.
 func MinEigLower(a mat.Symmetric, guess float64) float64 {
+	return MinEigLowerStop(a, guess, nil)
+}
+
+// MinEigLowerStop is MinEigLower that gives up the Cholesky test when stop
+// (checked every 16 rows) reports true, returning the Gershgorin bound:
+// still proven, possibly loose.
+func MinEigLowerStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 	n := a.SymmetricDim()
 	if n == 0 {
 		return math.Inf(1)
@@ -56,7 +63,7 @@ func MinEigLower(a mat.Symmetric, guess float64) float64 {
 			}
 		}
 	}
-	return minEigLowerDense(full, n, guess, nil)
+	return minEigLowerDense(full, n, guess, stop)
 }
 
 // minEigLowerDense is MinEigLower for a full symmetric row-major matrix,
