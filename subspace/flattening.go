@@ -124,15 +124,20 @@ func gramTiles(tr blas.Transpose, a blas64.General, c blas64.Symmetric, stop fun
 			return false
 		}
 		c1 := min(p, c0+tile)
-		if c0 > 0 {
-			// C[0:c0, c0:c1] = part(0, c0)·part(c0, c1)ᵀ (NoTrans) or
-			// part(0, c0)ᵀ·part(c0, c1) (Trans).
-			ta, tb := blas.NoTrans, blas.Trans
-			if tr == blas.Trans {
-				ta, tb = blas.Trans, blas.NoTrans
+		// C[0:c0, c0:c1] = part(0, c0)·part(c0, c1)ᵀ (NoTrans) or
+		// part(0, c0)ᵀ·part(c0, c1) (Trans), in row blocks of 256 so that
+		// no single product is long.
+		ta, tb := blas.NoTrans, blas.Trans
+		if tr == blas.Trans {
+			ta, tb = blas.Trans, blas.NoTrans
+		}
+		for r0 := 0; r0 < c0; r0 += 256 {
+			if r0 > 0 && stop != nil && stop() {
+				return false
 			}
-			blas64.Gemm(ta, tb, 1, part(0, c0), part(c0, c1), 0,
-				blas64.General{Rows: c0, Cols: c1 - c0, Stride: c.Stride, Data: c.Data[c0:]})
+			r1 := min(c0, r0+256)
+			blas64.Gemm(ta, tb, 1, part(r0, r1), part(c0, c1), 0,
+				blas64.General{Rows: r1 - r0, Cols: c1 - c0, Stride: c.Stride, Data: c.Data[r0*c.Stride+c0:]})
 		}
 		blas64.Syrk(tr, 1, part(c0, c1), 0,
 			blas64.Symmetric{N: c1 - c0, Stride: c.Stride, Data: c.Data[c0*c.Stride+c0:], Uplo: blas.Upper})

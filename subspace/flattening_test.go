@@ -18,7 +18,7 @@ import (
 // reference library) from an explicitly orthonormalised basis (gonum's QR).
 func TestFlatteningBoundsRoutes(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
-	for _, sh := range [][3]int{{2, 3, 40}, {3, 50, 2}, {7, 2, 5}, {4, 5, 6}, {30, 4, 9}} {
+	for _, sh := range [][3]int{{2, 3, 40}, {3, 50, 2}, {7, 2, 5}, {4, 5, 6}, {30, 4, 9}, {2, 3, 400}, {150, 2, 400}} {
 		k, m, n := sh[0], sh[1], sh[2]
 		data := make([]float64, k*m*n)
 		for i := range data {
