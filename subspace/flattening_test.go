@@ -2,6 +2,7 @@ package subspace
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -89,5 +90,44 @@ func TestFlatteningBoundsRoutes(t *testing.T) {
 	cancel()
 	if h1, h2 := w.FlatteningBounds(ctx); h1 < 0.8 || h2 < 0.8 {
 		t.Errorf("cancelled: %v %v below λmax = 4/5", h1, h2)
+	}
+}
+
+// A Subspace is safe for concurrent use, its caches included (run under
+// the race detector in CI): concurrent FlatteningBounds, PartialTraces,
+// ExtensionBound and ResidualBound calls agree with sequential ones.
+func TestConcurrentBounds(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	data := make([]float64, 5*4*6)
+	for i := range data {
+		data[i] = rng.NormFloat64()
+	}
+	w, err := New(Basis{Count: 5, Rows: 4, Cols: 6, Data: data}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	w2, _ := New(Basis{Count: 5, Rows: 4, Cols: 6, Data: data}, Options{})
+	h1, h2 := w2.FlatteningBounds(context.Background())
+	e, _ := w2.ExtensionBound(4096)
+	x, y := []float64{1, 2, 3, 4}, []float64{1, 0, -1, 2, 0.5, 3}
+	r := w2.ResidualBound(x, y)
+	done := make(chan error, 8)
+	for g := 0; g < 8; g++ {
+		go func() {
+			a1, a2 := w.FlatteningBounds(context.Background())
+			w.PartialTraces()
+			ee, _ := w.ExtensionBound(4096)
+			rr := w.ResidualBound(x, y)
+			if a1 != h1 || a2 != h2 || ee != e || rr != r {
+				done <- fmt.Errorf("concurrent results differ: %v %v %v %v", a1, a2, ee, rr)
+				return
+			}
+			done <- nil
+		}()
+	}
+	for g := 0; g < 8; g++ {
+		if err := <-done; err != nil {
+			t.Error(err)
+		}
 	}
 }
