@@ -196,8 +196,9 @@ func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 
 	// Copy the nonzero matrices, each scaled to unit Frobenius norm.
 	a := make([]float64, 0, total)
-	var orig []int // orig[c] = input index of copied column c
-	var scale []float64
+	var orig []int      // orig[c] = input index of copied column c
+	var scale []float64 // input matrix t is normalised as Ldexp(B_t, shift[c])·scale[c]
+	var shift []int
 	zeros := 0
 	for t := 0; t < r; t++ {
 		src := b.Data[t*L : (t+1)*L]
@@ -209,23 +210,28 @@ func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 		a = append(a, src...)
 		row := a[len(a)-L:]
 		if math.IsInf(1/nrm, 0) || math.IsInf(nrm, 0) {
-			// Rescale in two steps to stay in range.
-			f := accurate.Pow2Scale(accurate.MaxAbs(row))
+			// Out of range (subnormal or huge entries): first bring the
+			// largest entry into [1, 2) by an exponent shift (math.Ldexp, so
+			// the factor itself never overflows, as 2^1030 would for a
+			// subnormal maximum), then normalise.
+			_, e := math.Frexp(accurate.MaxAbs(row))
 			for i := range row {
-				row[i] *= f
+				row[i] = math.Ldexp(row[i], 1-e)
 			}
 			nrm = blas64.Nrm2(blas64.Vector{N: L, Data: row, Inc: 1})
 			f2 := 1 / nrm
 			for i := range row {
 				row[i] *= f2
 			}
-			scale = append(scale, f*f2)
+			scale = append(scale, f2)
+			shift = append(shift, 1-e)
 		} else {
 			f := 1 / nrm
 			for i := range row {
 				row[i] *= f
 			}
 			scale = append(scale, f)
+			shift = append(shift, 0)
 		}
 		orig = append(orig, t)
 	}
@@ -250,7 +256,7 @@ func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	}
 	f.formQ(a, L, stop)
 	qw := a[:k*L]
-	w.recon = reconstruction(b.Data, orig, scale, f, qw, L, stop)
+	w.recon = reconstruction(b.Data, orig, scale, shift, f, qw, L, stop)
 	if w.comp {
 		a = nil // release the input copy before the complement is built
 		w.s = L - k
@@ -437,7 +443,7 @@ func complementBasis(refl, beta []float64, k, L int, stop func() bool) []float64
 // reconstruction returns ‖B̂Π − QR‖_F/‖B̂‖_F, recomputing each unit-normalised
 // input column from the caller's data, in chunks to bound the memory.
 // It returns early, with a meaningless value, when stop reports true.
-func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q []float64, L int, stop func() bool) float64 {
+func reconstruction(data []float64, orig []int, scale []float64, shift []int, f *qrFactors, q []float64, L int, stop func() bool) float64 {
 	rr, k := len(orig), f.k
 	const chunk = 32
 	buf := make([]float64, chunk*L)
@@ -462,9 +468,12 @@ func reconstruction(data []float64, orig []int, scale []float64, f *qrFactors, q
 		for j := c0; j < c1; j++ {
 			col := f.perm[j]
 			src := data[orig[col]*L : (orig[col]+1)*L]
-			sc := scale[col]
+			sc, sh := scale[col], shift[col]
 			row := buf[(j-c0)*L : (j-c0+1)*L]
 			for i, v := range src {
+				if sh != 0 {
+					v = math.Ldexp(v, sh)
+				}
 				d := v*sc - row[i]
 				ss += d * d
 			}

@@ -181,12 +181,25 @@ func oneLine(err error) string {
 	return strings.ReplaceAll(err.Error(), "\n", " ")
 }
 
+// number is a float64 that encodes as JSON null when it is NaN or ±Inf
+// (JSON has no such numbers; an infinite bound means nothing was proven).
+type number float64
+
+// MarshalJSON implements json.Marshaler.
+func (v number) MarshalJSON() ([]byte, error) {
+	f := float64(v)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(f)
+}
+
 type jsonSearcher struct {
-	Name    string  `json:"name"`
-	Lower   float64 `json:"lower"`
-	Upper   float64 `json:"upper"`
-	Status  string  `json:"status"`
-	Seconds float64 `json:"seconds"`
+	Name    string `json:"name"`
+	Lower   number `json:"lower"`
+	Upper   number `json:"upper"`
+	Status  string `json:"status"`
+	Seconds number `json:"seconds"`
 }
 
 type jsonOut struct {
@@ -195,21 +208,21 @@ type jsonOut struct {
 	Cols             int            `json:"cols"`
 	Inputs           int            `json:"inputs"`
 	Dim              int            `json:"dim"`
-	Tol              float64        `json:"tol"`
+	Tol              number         `json:"tol"`
 	StoresComplement bool           `json:"stores_complement"`
-	Reconstruction   float64        `json:"reconstruction_error"`
-	Orthogonality    float64        `json:"orthogonality_bound"`
-	Lower            float64        `json:"lower"`
-	Upper            float64        `json:"upper"`
-	ValueLower       float64        `json:"value_lower"`
-	ValueUpper       float64        `json:"value_upper"`
-	Gap              float64        `json:"gap"`
+	Reconstruction   number         `json:"reconstruction_error"`
+	Orthogonality    number         `json:"orthogonality_bound"`
+	Lower            number         `json:"lower"`
+	Upper            number         `json:"upper"`
+	ValueLower       number         `json:"value_lower"`
+	ValueUpper       number         `json:"value_upper"`
+	Gap              number         `json:"gap"`
 	X                []float64      `json:"x"`
 	Y                []float64      `json:"y"`
 	FoundBy          string         `json:"found_by"`
 	LowerBy          string         `json:"lower_by"`
 	Status           string         `json:"status"`
-	Seconds          float64        `json:"seconds"`
+	Seconds          number         `json:"seconds"`
 	Searchers        []jsonSearcher `json:"searchers"`
 }
 
@@ -217,13 +230,14 @@ func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Resul
 	given, _ := w.Inputs()
 	rec, _ := w.BackwardError()
 	vlo, vhi := res.ValueBounds()
-	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: w.Tol(),
-		StoresComplement: w.StoresComplement(), Reconstruction: rec, Orthogonality: w.OrthogonalityBound(),
-		Lower: res.Lower, Upper: res.Upper, ValueLower: vlo, ValueUpper: vhi, Gap: relGap(vlo, vhi), X: res.X, Y: res.Y,
-		FoundBy: res.FoundBy, LowerBy: res.LowerBy, Status: res.Status.String(), Seconds: res.Elapsed.Seconds()}
+	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: number(w.Tol()),
+		StoresComplement: w.StoresComplement(), Reconstruction: number(rec), Orthogonality: number(w.OrthogonalityBound()),
+		Lower: number(res.Lower), Upper: number(res.Upper), ValueLower: number(vlo), ValueUpper: number(vhi),
+		Gap: number(relGap(vlo, vhi)), X: res.X, Y: res.Y,
+		FoundBy: res.FoundBy, LowerBy: res.LowerBy, Status: res.Status.String(), Seconds: number(res.Elapsed.Seconds())}
 	for _, e := range entries {
-		out.Searchers = append(out.Searchers, jsonSearcher{Name: e.Name, Lower: e.Result.Lower, Upper: e.Result.Upper,
-			Status: e.Result.Status.String(), Seconds: e.Result.Elapsed.Seconds()})
+		out.Searchers = append(out.Searchers, jsonSearcher{Name: e.Name, Lower: number(e.Result.Lower), Upper: number(e.Result.Upper),
+			Status: e.Result.Status.String(), Seconds: number(e.Result.Elapsed.Seconds())})
 	}
 	enc := json.NewEncoder(stdout)
 	enc.SetIndent("", "  ")

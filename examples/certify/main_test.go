@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -150,4 +151,36 @@ func npyHeader(shape string) []byte {
 	}
 	h += "\n"
 	return append([]byte{0x93, 'N', 'U', 'M', 'P', 'Y', 1, 0, byte(len(h)), byte(len(h) >> 8)}, h...)
+}
+
+// Inputs at the ends of the exponent range give a valid JSON report (JSON
+// has no NaN or Inf: a non-finite number is written as null) and a useful
+// interval: diag(1e-310, 5e-324) has d* = 2^-1074/fl(1e-310) ≈ 4.94e-14
+// (Eckart–Young, derived; the stored basis is exact after the exponent
+// shift), so the reported Upper is within a few ulps of it.
+func TestExtremeMagnitudesJSON(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "tiny.txt")
+	os.WriteFile(p, []byte("1 2 2\n1e-310 0 0 5e-324\n"), 0o644)
+	code, out, errs := runCmd("-json", "-time", "300ms", "-quiet", p)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var v map[string]any
+	if err := json.Unmarshal([]byte(out), &v); err != nil {
+		t.Fatalf("not JSON: %v\n%s", err, out)
+	}
+	tiny, small := 5e-324, 1e-310 // float64 values (2^-1074 and a subnormal), not exact constants
+	want := tiny / small
+	if up, ok := v["upper"].(float64); !ok || up < want*(1-1e-12) || up > want*(1+1e-9) {
+		t.Errorf("upper %v, want ≈ %v", v["upper"], want)
+	}
+	for _, c := range []struct {
+		v    number
+		want string
+	}{{number(math.NaN()), "null"}, {number(math.Inf(1)), "null"}, {number(math.Inf(-1)), "null"}, {number(0.5), "0.5"}} {
+		if b, err := json.Marshal(c.v); err != nil || string(b) != c.want {
+			t.Errorf("%v encodes as %s (%v), want %s", float64(c.v), b, err, c.want)
+		}
+	}
 }

@@ -20,6 +20,7 @@ import (
 	"math"
 	"testing"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/rankone"
@@ -68,13 +69,15 @@ func Slack(t *testing.T, b subspace.Basis, w *subspace.Subspace) float64 {
 	L := b.Rows * b.Cols
 	a := mat.NewDense(L, b.Count, nil)
 	for c := 0; c < b.Count; c++ {
-		var s float64
-		for l := 0; l < L; l++ {
-			s += b.Data[c*L+l] * b.Data[c*L+l]
+		// The norm by gonum's scaled Nrm2 and a division per entry, so that
+		// subnormal and huge inputs normalise without under- or overflow.
+		col := b.Data[c*L : (c+1)*L]
+		s := blas64.Nrm2(blas64.Vector{N: L, Data: col, Inc: 1})
+		if s == 0 {
+			continue // a zero matrix: New drops it, and so does the span
 		}
-		s = math.Sqrt(s)
 		for l := 0; l < L; l++ {
-			a.Set(l, c, b.Data[c*L+l]/s)
+			a.Set(l, c, col[l]/s)
 		}
 	}
 	var svd mat.SVD

@@ -132,6 +132,9 @@ func TestNeverLies(t *testing.T) {
 		slack := math.Inf(1)
 		if !math.IsNaN(in.Optimum) {
 			slack = searchtest.Slack(t, in.Basis, w)
+			if math.IsNaN(slack) {
+				t.Fatalf("instance %d (%s): slack is NaN (the stored basis' backward error is not a number)", i, in.Name)
+			}
 		}
 		for _, a := range bs {
 			if !(a.lower >= 0 && a.upper <= 1 && a.lower <= a.upper) {
