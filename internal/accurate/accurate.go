@@ -258,10 +258,12 @@ func MaxAbs(x []float64) float64 {
 // Pow2Scale returns the power of two s such that max|xᵢ|·s lies in [1, 2),
 // or 1 when x is all zero. Multiplying by s is exact unless entries fall into
 // the subnormal range, which callers must check when exactness matters.
+// For a subnormal maxAbs the power needed exceeds the largest float, so s is
+// capped at 2^1023 (finite; max|xᵢ|·s is then below 1).
 func Pow2Scale(maxAbs float64) float64 {
 	if maxAbs == 0 || math.IsInf(maxAbs, 0) || math.IsNaN(maxAbs) {
 		return 1
 	}
 	_, e := math.Frexp(maxAbs) // maxAbs = f·2^e, f ∈ [0.5, 1)
-	return math.Ldexp(1, 1-e)
+	return math.Ldexp(1, min(1-e, 1023))
 }

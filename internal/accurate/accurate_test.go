@@ -186,3 +186,23 @@ func TestResultWithMatchesFormula(t *testing.T) {
 		}
 	}
 }
+
+// Pow2Scale: max·s ∈ [1, 2) for normal maxima (derived from frexp), a
+// finite s for subnormal ones, 1 for zero and non-finite input.
+func TestPow2Scale(t *testing.T) {
+	for _, v := range []float64{1, 1.5, 3, 1e-300, 1e300, math.MaxFloat64, 0x1p-1022} {
+		if p := v * Pow2Scale(v); p < 1 || p >= 2 {
+			t.Errorf("%g·s = %g", v, p)
+		}
+	}
+	for _, v := range []float64{5e-324, 1e-310} {
+		if s := Pow2Scale(v); math.IsInf(s, 0) || s != 0x1p1023 {
+			t.Errorf("subnormal %g: s = %g, want 2^1023", v, s)
+		}
+	}
+	for _, v := range []float64{0, math.Inf(1), math.NaN()} {
+		if Pow2Scale(v) != 1 {
+			t.Errorf("%v: s ≠ 1", v)
+		}
+	}
+}
