@@ -291,6 +291,11 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 			}
 			mch.solve(rhs)
 			dy := rhs
+			for _, v := range dy {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					return nil, nil, nil // a breakdown: the caller stops with the best iterate
+				}
+			}
 			dz := atOp(dy)
 			dz.AddSym(dz, rd)
 			var dxf mat.Dense
