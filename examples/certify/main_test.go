@@ -127,6 +127,11 @@ func TestBadInputExitTwo(t *testing.T) {
 	if _, err := os.Stat("/proc/self/mem"); err == nil {
 		cases = append(cases, []string{"/proc/self/mem"}) // opens, but reading fails (EIO)
 	}
+	if os.Geteuid() != 0 { // root reads files whatever their mode
+		locked := write("locked.txt", []byte("1 1 1\n1\n"))
+		os.Chmod(locked, 0)
+		cases = append(cases, []string{locked}) // permission denied
+	}
 	for _, args := range cases {
 		code, out, errs := runCmd(args...)
 		if code != 2 {
