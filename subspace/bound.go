@@ -215,7 +215,7 @@ func (w *Subspace) computePartialTrace(ctx context.Context, rows bool) (t *mat.S
 			a.Data[i*p+j] = a.Data[j*p+i]
 		}
 	}
-	sf := accurate.SumSqUpper(w.q)
+	sf := w.sumSq
 	d = accurate.MulUp(accurate.Gamma(inner+1), sf)
 	if !w.comp {
 		d = accurate.AddUp(d, accurate.MulUp(accurate.Up(w.eta/accurate.Down(1-w.eta)), sf))
@@ -302,7 +302,7 @@ func (w *Subspace) maxEig(op *Operator, u, vec []float64) (est, upper float64) {
 		return est, 0
 	}
 	other := w.m * w.n / p // the length of u
-	sf := accurate.SqrtUp(accurate.SumSqUpper(w.q))
+	sf := accurate.SqrtUp(w.sumSq)
 	e := accurate.MulUp(accurate.MulUp(accurate.Gamma(other), accurate.SqrtUp(uu)), sf)
 	zf := accurate.SumSqUpper(op.z)
 	var raw blas64.Symmetric
@@ -363,7 +363,7 @@ func (w *Subspace) ProjectorBound() (*mat.SymDense, float64) {
 	if w.eta >= 0.5 {
 		return mat.NewSymDense(L, raw.Data), math.Inf(1)
 	}
-	sf := accurate.SumSqUpper(w.q)
+	sf := w.sumSq
 	delta := accurate.MulUp(accurate.Gamma(max(w.s, 1)), sf)
 	if !w.comp {
 		f := accurate.Up(w.eta / accurate.Down(1-w.eta))
@@ -455,7 +455,7 @@ func (w *Subspace) ExtensionBoundContext(ctx context.Context, maxOrder int) (upp
 		}
 	}
 	errN := accurate.MulUp(accurate.Gamma(m+1), accurate.SqrtUp(accurate.UpperRel(absF, dim*dim+1)))
-	errG := accurate.MulUp(accurate.Gamma(L), accurate.SumSqUpper(w.q))
+	errG := accurate.MulUp(accurate.Gamma(L), w.sumSq)
 	errR := accurate.MulUp(4*accurate.U, accurate.SqrtUp(accurate.UpperRel(fro, dim*dim+1)))
 	x := make([]float64, dim)
 	guess, _ := eigen.Top(eigen.SymApply(a), x, 0, 0, 1e-13)

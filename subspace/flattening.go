@@ -46,7 +46,7 @@ func (w *Subspace) FlatteningBounds(ctx context.Context) (h1, h2 float64) {
 	}
 	m, n, s := w.m, w.n, w.s
 	altRows, altCols := !w.comp && s*n < m, !w.comp && s*m < n
-	sf := accurate.SumSqUpper(w.q)
+	sf := w.sumSq
 	etaPart := accurate.MulUp(accurate.Up(w.eta/accurate.Down(1-w.eta)), sf)
 	bound := func(a *mat.SymDense, extra float64) float64 {
 		x := make([]float64, a.SymmetricDim())

@@ -94,6 +94,7 @@ type Subspace struct {
 	recon         float64 // ‖B̂Π − QR‖_F / ‖B̂‖_F for the unit-normalised input B̂
 	orthFl        float64 // ‖SSᵀ − I‖_F as computed
 	eta           float64 // proven bound on ‖SSᵀ − I‖₂
+	sumSq         float64 // proven upper bound on ‖S‖_F² (accurate.SumSqUpper of the stored rows)
 
 	ptMu    [2]sync.Mutex // the partial traces, each side computed on first complete use
 	ptDone  [2]bool
@@ -265,7 +266,8 @@ func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 		w.s = k
 		w.q = qw[: k*L : k*L]
 	}
-	w.orthFl, w.eta = orthogonality(w.q, w.s, L, stop)
+	w.sumSq = accurate.SumSqUpper(w.q)
+	w.orthFl, w.eta = orthogonality(w.q, w.s, L, w.sumSq, stop)
 	if stop() {
 		return cancelled()
 	}
@@ -494,7 +496,8 @@ func reconstruction(data []float64, orig []int, scale []float64, shift []int, f 
 //
 // The Gram matrix is formed in column tiles with stop checked between them;
 // if it reports true the result is meaningless (the caller discards it).
-func orthogonality(q []float64, s, L int, stop func() bool) (computed, bound float64) {
+// sf is a proven upper bound on ‖S‖_F².
+func orthogonality(q []float64, s, L int, sf float64, stop func() bool) (computed, bound float64) {
 	if s == 0 {
 		return 0, 0
 	}
@@ -520,7 +523,6 @@ func orthogonality(q []float64, s, L int, stop func() bool) (computed, bound flo
 	// |fl(Ĝ_ij − δ_ij)| ≤ (1+u)|Ĝ_ij − δ_ij|: absorbed by counting one more rounding per term.
 	fro := accurate.SqrtUp(accurate.UpperRel(ss, s*s+4))
 	fro = accurate.MulUp(fro, 1+4*accurate.U)
-	sf := accurate.SumSqUpper(q)
 	bound = accurate.AddUp(fro, accurate.MulUp(accurate.Gamma(L), sf))
 	return computed, bound
 }
