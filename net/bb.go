@@ -262,6 +262,18 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	sinceFull := 0 // cells evaluated since the last full re-bounding pass
 	nodes := 0
 	maxPruned := 0.0
+	// A cell whose key is at most thresh cannot beat the incumbent by the
+	// requested gap: it is pruned, and its key joins maxPruned (the bound
+	// keeps counting it). rekey bounds a cell with the current Λ.
+	var thresh float64
+	pruned := func(c *cell) bool {
+		if c.key > thresh {
+			return false
+		}
+		maxPruned = math.Max(maxPruned, c.key)
+		return true
+	}
+	rekey := func(c *cell) { c.key, c.lam = cellBound(c.fbar, c.r, lam), lam }
 	status := rankone.LimitReached
 	why := "" // why a search that did not reach its gap stopped
 	if d == 1 {
@@ -316,7 +328,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			// Candidates in order: raise the incumbent.
 			bi := -1
 			for i, c := range pending {
-				c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
+				rekey(c)
 				if c.est > bestEst*(1+1e-12) && (bi < 0 || c.est > pending[bi].est) {
 					bi = i
 				}
@@ -335,11 +347,9 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 					bestEst = math.Max(bestEst, st.Value)
 				}
 			}
-			thresh := hLow / (1 - gap)
+			thresh = hLow / (1 - gap)
 			for _, c := range pending {
-				if c.key <= thresh {
-					maxPruned = math.Max(maxPruned, c.key)
-				} else {
+				if !pruned(c) {
 					heap.Push(&front, c)
 				}
 			}
@@ -358,10 +368,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			// are close: seen to stall a search for seconds.)
 			for k := 0; k < 64 && len(front) > 0 && front[0].lam > lam; k++ {
 				c := heap.Pop(&front).(*cell)
-				c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
-				if c.key <= thresh {
-					maxPruned = math.Max(maxPruned, c.key)
-				} else {
+				if rekey(c); !pruned(c) {
 					heap.Push(&front, c)
 				}
 			}
@@ -382,10 +389,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				}
 				keep := front[:0]
 				for _, c := range front {
-					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
-					if c.key <= thresh {
-						maxPruned = math.Max(maxPruned, c.key)
-					} else {
+					if rekey(c); !pruned(c) {
 						keep = append(keep, c)
 					}
 				}
@@ -423,9 +427,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 					// Stale key: re-bound with the current Λ; if the cell is
 					// no longer the best, put it back (lazy best-first, at
 					// most 64 times a batch: see the global bound above).
-					c.key, c.lam = cellBound(c.fbar, c.r, lam), lam
-					if c.key <= thresh {
-						maxPruned = math.Max(maxPruned, c.key)
+					if rekey(c); pruned(c) {
 						continue
 					}
 					if putBack < 64 && len(front) > 0 && c.key < front[0].key {
@@ -434,8 +436,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 						continue
 					}
 				}
-				if c.key <= thresh {
-					maxPruned = math.Max(maxPruned, c.key)
+				if pruned(c) {
 					continue
 				}
 				pending = append(pending, c.children()...)
