@@ -56,23 +56,8 @@ func FuzzStrategies(f *testing.F) {
 			&net.BranchBound{Gap: 1e-2, MaxNodes: 300, Workers: 1}, &net.Exhaustive{Epsilon: 0.3, Workers: 1},
 			&sos.Bound{MaxIter: 40},
 		}
-		var bs []bound
-		for _, s := range searchers {
-			res, err := s.Search(ctx, w)
-			if err != nil && res.X == nil {
-				continue
-			}
-			if !(res.Lower >= 0 && res.Upper <= 1 && res.Lower <= res.Upper) {
-				t.Fatalf("%s gives [%v, %v]", rankone.NameOf(s), res.Lower, res.Upper)
-			}
-			bs = append(bs, bound{rankone.NameOf(s), res.Lower, res.Upper})
-		}
-		for _, a := range bs {
-			for _, c := range bs {
-				if a.lower > c.upper {
-					t.Fatalf("Lower %v of %s exceeds Upper %v of %s", a.lower, a.name, c.upper, c.name)
-				}
-			}
+		if msg := inconsistent(intervals(ctx, w, searchers)); msg != "" {
+			t.Fatal(msg)
 		}
 	})
 }
