@@ -51,10 +51,7 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 	var h float64
 	for it := 0; it < maxIter; it++ {
 		if err := ctx.Err(); err != nil {
-			st.Status = Cancelled
-			st.Evaluations = o.evals
-			st.Value = o.Value(x, y)
-			return st, err
+			return st.cancelled(o, x, y, err)
 		}
 		st.Iterations = it + 1
 		hop := o.HOperator(x)
@@ -65,15 +62,8 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 		gop.Apply(gx, x)
 		ggx := 2 * tangentNorm(gx, x)
 		h, _ = TopEigen(gop.Apply, x, 0, 0, 1e-14)
-		g := math.Hypot(ggx, ggy)
-		st.Gradient = g
 		gate.Report(Progress{Searcher: a.Name(), Iteration: it + 1, Value: h, Upper: 1})
-		if g <= tol {
-			st.Status = Converged
-			break
-		}
-		if sl.stuck(g) {
-			st.Status = floorStatus(g) // no more progress in floating point
+		if st.settle(math.Hypot(ggx, ggy), tol, &sl) {
 			break
 		}
 	}

@@ -93,6 +93,31 @@ func (s *stall) stuck(g float64) bool {
 	return s.since >= s.patience
 }
 
+// settle records the Riemannian gradient norm g of an iteration of an
+// alternating method and reports whether the method stops there: converged
+// (g ≤ tol) or at a floating-point floor (sl), with st.Status set.
+func (st *Stats) settle(g, tol float64, sl *stall) bool {
+	st.Gradient = g
+	switch {
+	case g <= tol:
+		st.Status = Converged
+	case sl.stuck(g):
+		st.Status = floorStatus(g) // no more progress in floating point
+	default:
+		return false
+	}
+	return true
+}
+
+// cancelled finishes the Stats of an alternating method whose context is
+// done at (x, y).
+func (st Stats) cancelled(o *oracle, x, y []float64, err error) (Stats, error) {
+	st.Status = Cancelled
+	st.Evaluations = o.evals
+	st.Value = o.Value(x, y)
+	return st, err
+}
+
 // tangentNorm returns ‖u − (xᵀu)x‖ for unit x.
 func tangentNorm(u, x []float64) float64 {
 	c := dotv(u, x)

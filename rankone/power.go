@@ -50,10 +50,7 @@ func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64
 	var h float64
 	for it := 0; it < maxIter; it++ {
 		if err := ctx.Err(); err != nil {
-			st.Status = Cancelled
-			st.Evaluations = o.evals
-			st.Value = o.Value(x, y)
-			return st, err
+			return st.cancelled(o, x, y, err)
 		}
 		st.Iterations = it + 1
 		o.ApplyG(gx, y, x)
@@ -75,15 +72,8 @@ func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64
 		}
 		copy(y, gy)
 		scale(y, 1/ny)
-		g := math.Hypot(ggx, ggy)
-		st.Gradient = g
 		gate.Report(Progress{Searcher: p.Name(), Iteration: it + 1, Value: h, Upper: 1})
-		if g <= tol {
-			st.Status = Converged
-			break
-		}
-		if sl.stuck(g) {
-			st.Status = floorStatus(g) // no more progress in floating point
+		if st.settle(math.Hypot(ggx, ggy), tol, &sl) {
 			break
 		}
 	}
