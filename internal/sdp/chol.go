@@ -45,10 +45,9 @@ func (c *chol) factor(ctx context.Context, a []float64, k int) (bool, error) {
 	c.k, c.u = k, c.u[:k*k]
 	copy(c.u, a[:k*k])
 	u := c.u
+	// gen is the rows×cols block of U at (r0, c0); every caller's block is
+	// nonempty.
 	gen := func(r0, c0, rows, cols int) blas64.General {
-		if rows == 0 || cols == 0 {
-			return blas64.General{Rows: rows, Cols: cols, Stride: max(k, 1), Data: nil}
-		}
 		return blas64.General{Rows: rows, Cols: cols, Stride: k, Data: u[r0*k+c0:]}
 	}
 	for j0 := 0; j0 < k; j0 += cholBlock {
