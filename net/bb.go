@@ -86,7 +86,7 @@ func cellBound(fbar, r, lam float64) float64 {
 	}
 	rr := accurate.MulUp(r, r)
 	// A lower estimate of Λ/(1+r²); below it ψ is increasing in q.
-	qStar := lam / (1 + r*r) * (1 - 1e-12)
+	qStar := lam / (1 + float64(r*r)) * (1 - 1e-12)
 	b := accurate.MulUp(lam, accurate.AddUp(1, rr))
 	if fbar <= qStar {
 		t := accurate.AddUp(accurate.SqrtUp(fbar), accurate.MulUp(r, accurate.SqrtUp(accurate.Up(lam-fbar))))
@@ -142,7 +142,7 @@ func (cl *cell) radius() float64 {
 	var s float64
 	for k := range cl.lo {
 		h := (cl.hi[k] - cl.lo[k]) / 2 // exact
-		s += h * h
+		s += float64(h * h)
 	}
 	return accurate.SqrtUp(accurate.UpperRel(s, len(cl.lo)+1))
 }

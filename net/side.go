@@ -50,7 +50,7 @@ func (s *side) value(c, vec []float64) (est, upper float64) {
 	cc := accurate.SumSqLower(c)
 	var ccEst float64
 	for _, v := range c {
-		ccEst += v * v
+		ccEst += float64(v * v)
 	}
 	return e / ccEst, accurate.Up(u / cc)
 }
@@ -60,7 +60,7 @@ func (s *side) witness(c, v []float64) (x, y []float64) {
 	cn := append([]float64(nil), c...)
 	var n float64
 	for _, a := range cn {
-		n += a * a
+		n += float64(a * a)
 	}
 	n = math.Sqrt(n)
 	for i := range cn {

@@ -98,7 +98,7 @@ func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
 					e.chat[(i*s+u)*dim+k*s+v] = sum
 					if cnt > 1 {
 						b := accurate.MulUp(accurate.Gamma(cnt), abs)
-						errF += b * b
+						errF += float64(b * b)
 					}
 				}
 			}
@@ -214,12 +214,12 @@ func (e *extension) bound(t float64, k []float64, stop func() bool) float64 {
 			v := -c - kk
 			mag := math.Abs(c) + math.Abs(kk)
 			if i == j {
-				td := t * e.dval(i)
+				td := float64(t * e.dval(i))
 				v += td
 				mag += math.Abs(td)
 			}
 			a.SetSym(i, j, v)
-			fro += 2 * mag * mag
+			fro += float64(2 * mag * mag)
 		}
 	}
 	// Each entry is formed with at most three roundings (the product t·d and
@@ -291,7 +291,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 			}
 		}
 	}
-	hb := e.bound(sol.Dual*(1+1e-12)+1e-15, k, func() bool { return ctx.Err() != nil })
+	hb := e.bound(float64(sol.Dual*(1+1e-12))+1e-15, k, func() bool { return ctx.Err() != nil })
 	if lo := lowerFromH(hb); lo > 0 {
 		res.Lower, res.LowerBy = lo, "sos level 2"
 	}

@@ -90,9 +90,9 @@ func Verify(w *subspace.Subspace, c Certificate) (float64, error) {
 			v := p.At(a, b) + c.K[a*L+b]
 			sum.SetSym(a, b, v)
 			if a == b {
-				fro += v * v
+				fro += float64(v * v)
 			} else {
-				fro += 2 * v * v
+				fro += float64(2 * v * v)
 			}
 		}
 	}

@@ -121,7 +121,7 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 	cc := accurate.SumSqUpper(c)
 	var cEst float64
 	for _, v := range c {
-		cEst += v * v
+		cEst += float64(v * v)
 	}
 	// The estimate uses the full float matrix with the (assembly) general
 	// matrix-vector product; only the bound needs the exact symmetric form.
@@ -134,7 +134,7 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 		blas64.Gemv(blas.NoTrans, alpha, full, blas64.Vector{N: p, Data: src, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
 		if shift != 0 {
 			for i := range dst {
-				dst[i] += shift * src[i]
+				dst[i] += float64(shift * src[i])
 			}
 		}
 	}

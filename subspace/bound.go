@@ -69,7 +69,7 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 			}
 			r, b := acc.Result()
 			f := accurate.AddUp(math.Abs(r), b)
-			ss += f * f
+			ss += float64(f * f)
 		}
 		ss = accurate.UpperRel(ss, w.s+1)
 		inv := accurate.Up(1 / accurate.Down(1-w.eta))
@@ -117,7 +117,7 @@ func (w *Subspace) ResidualBound(x, y []float64) float64 {
 		}
 		r, b := acc[l].ResultWith(&rc)
 		f := accurate.AddUp(math.Abs(r), b)
-		ss += f * f
+		ss += float64(f * f)
 	}
 	return accurate.SqrtUp(accurate.UpperRel(ss, L+1)) // L squares and L−1 additions: within γ_{L+1}
 }
@@ -435,7 +435,7 @@ func (w *Subspace) ExtensionBoundContext(ctx context.Context, maxOrder int) (upp
 				for j2 := j0; j2 < n; j2++ {
 					var v, ab float64
 					for i := 0; i < m; i++ {
-						p := st[i*n+j2] * su[i*n+j]
+						p := float64(st[i*n+j2] * su[i*n+j])
 						v += p
 						ab += math.Abs(p)
 					}
@@ -448,8 +448,8 @@ func (w *Subspace) ExtensionBoundContext(ctx context.Context, maxOrder int) (upp
 					if t == t2 && j == j2 {
 						mult = 1
 					}
-					absF += mult * ab * ab
-					fro += mult * v * v
+					absF += float64(mult * ab * ab)
+					fro += float64(mult * v * v)
 				}
 			}
 		}

@@ -476,8 +476,8 @@ func reconstruction(data []float64, orig []int, scale []float64, shift []int, f 
 				if sh != 0 {
 					v = math.Ldexp(v, sh)
 				}
-				d := v*sc - row[i]
-				ss += d * d
+				d := float64(v*sc) - row[i]
+				ss += float64(d * d)
 			}
 		}
 	}
@@ -513,9 +513,9 @@ func orthogonality(q []float64, s, L int, sf float64, stop func() bool) (compute
 				v -= 1
 			}
 			if i == j {
-				ss += v * v
+				ss += float64(v * v)
 			} else {
-				ss += 2 * v * v
+				ss += float64(2 * v * v)
 			}
 		}
 	}

@@ -11,9 +11,28 @@
 // so each bound adds Tiny per operation it counts (Tiny = 2^-1060 is far larger
 // than any accumulated underflow error and far below any value of interest).
 //
-// The compiler is allowed to fuse a*b+c into one FMA; that only removes
-// roundings, so the bounds below remain valid. The error-free transformations
-// use math.FMA explicitly and never rely on fusion.
+// Fused multiply-add. The Go specification lets a compiler fuse x*y + z
+// into one instruction with a single rounding, across statements, unless the
+// product is converted explicitly: float64(x*y). Amd64 with GOAMD64=v3 and
+// the default arm64 build do so. Fusion does not only "remove a rounding":
+// an error-free transformation needs the *rounded* product p = fl(a·b) in
+// every place it is used; if the compiler fuses p into the following sum,
+// s = fl(S + a·b) is computed from the exact product while the error term
+// e = a·b − p still assumes S + p, and the compensated result can be wrong
+// by far more than its bound (measured: false Upper bounds on v3 builds).
+// Hence the rule of this package and of every certified computation in this
+// module: every product whose rounding an argument counts is written
+// float64(a*b), which the specification forbids to fuse; math.FMA is used
+// where an argument needs the exact product. `.ci/fusion-check` compiles the
+// module for amd64 v3 and for arm64 and fails if a fused instruction appears
+// in a function that is not listed there as uncertified.
+//
+// A priori bounds of the form |fl(Σ aᵢbᵢ) − Σ aᵢbᵢ| ≤ γ_n Σ|aᵢbᵢ| (used for
+// sums computed by gonum, whose pure-Go kernels may be fused on arm64) stay
+// valid under fusion: a fused step s_k = (s_{k−1} + a_k b_k)(1+δ_k) has one
+// rounding where the unfused one has two, so the product of (1+δ) factors
+// that multiplies each term has at most n factors either way (derived here,
+// in the model of Higham 2002, §2.2 and §3.1).
 package accurate
 
 import "math"
@@ -30,7 +49,7 @@ func Gamma(n int) float64 {
 	if n < 0 {
 		panic("accurate: negative n in Gamma")
 	}
-	nu := float64(n) * U // exact for n < 2^53
+	nu := float64(float64(n) * U) // exact for n < 2^53
 	if nu >= 0.5 {
 		panic("accurate: n too large in Gamma")
 	}
@@ -68,7 +87,7 @@ func UpperRel(v float64, ops int) float64 {
 	}
 	g := Gamma(ops)
 	b := AddUp(v, MulUp(2*g, v))
-	return AddUp(b, float64(ops+1)*Tiny)
+	return AddUp(b, float64(float64(ops+1)*Tiny))
 }
 
 // LowerRel returns a lower bound (≥ 0) on a nonnegative exact quantity E with
@@ -85,7 +104,7 @@ func LowerRel(v float64, ops int) float64 {
 	}
 	g := Gamma(ops)
 	l := Down(v - MulUp(g, v))
-	l = Down(l - float64(ops+1)*Tiny)
+	l = Down(l - float64(float64(ops+1)*Tiny))
 	if l < 0 {
 		return 0
 	}
@@ -104,7 +123,7 @@ func TwoSum(a, b float64) (s, e float64) {
 // TwoProd returns p = fl(a·b) and e with a·b = p + e exactly, barring
 // underflow (Ogita, Rump, Oishi 2005, §3, with FMA).
 func TwoProd(a, b float64) (p, e float64) {
-	p = a * b
+	p = float64(a * b) // the rounded product: must not be fused below
 	e = math.FMA(a, b, -p)
 	return p, e
 }
@@ -137,7 +156,7 @@ func AddProds(acc []Acc, a float64, b []float64) {
 	acc = acc[:len(b)]
 	for i, bi := range b {
 		q := &acc[i]
-		p := a * bi
+		p := float64(a * bi) // rounded; see the package comment on fusion
 		e := math.FMA(a, bi, -p)
 		s := q.S + p
 		z := s - q.S
@@ -214,7 +233,7 @@ func (q *Acc) ResultWith(c *ResultConsts) (r, bound float64) {
 func SumSqUpper(x []float64) float64 {
 	var s float64
 	for _, v := range x {
-		s += v * v
+		s += float64(v * v)
 	}
 	return UpperRel(s, len(x)+1)
 }
@@ -223,7 +242,7 @@ func SumSqUpper(x []float64) float64 {
 func SumSqLower(x []float64) float64 {
 	var s float64
 	for _, v := range x {
-		s += v * v
+		s += float64(v * v)
 	}
 	return LowerRel(s, len(x)+1)
 }

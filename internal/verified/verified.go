@@ -88,7 +88,7 @@ func minEigLowerDense(full []float64, n int, guess float64, stop func() bool) fl
 	if rowMax == 0 {
 		return 0 // the zero matrix: all eigenvalues are exactly 0
 	}
-	margin := 4*float64(n+1)*accurate.U*rowMax + 0x1p-1000
+	margin := float64(4*float64(n+1)*accurate.U*rowMax) + 0x1p-1000
 	work := make([]float64, n*n)
 	best := gersh
 	for try := 0; try < 12; try++ {
@@ -167,15 +167,15 @@ func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float6
 			rj := l[j*n : j*n+j]
 			v := ri[j]
 			for k := range rj {
-				v -= ri[k] * rj[k]
+				v -= float64(ri[k] * rj[k])
 			}
 			v /= l[j*n+j]
 			ri[j] = v
-			frob += v * v
+			frob += float64(v * v)
 		}
 		d := ri[i]
 		for k := 0; k < i; k++ {
-			d -= ri[k] * ri[k]
+			d -= float64(ri[k] * ri[k])
 		}
 		if !(d > 0) || math.IsInf(d, 0) {
 			return 0, false
@@ -187,7 +187,7 @@ func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float6
 	frobUp := accurate.UpperRel(frob, n*n+n+2)
 	c := accurate.MulUp(accurate.Gamma(n+1), frobUp)
 	c = accurate.AddUp(c, accurate.MulUp(2*accurate.U, maxDiag))
-	c = accurate.AddUp(c, float64(n)*(float64(n)+maxL+1)*accurate.Tiny)
+	c = accurate.AddUp(c, float64(float64(n)*(float64(n)+maxL+1)*accurate.Tiny))
 	if math.IsInf(c, 0) || math.IsNaN(c) {
 		return 0, false
 	}
