@@ -21,6 +21,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/segre-lab/segre/internal/accurate"
 	"github.com/segre-lab/segre/net"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/sos"
@@ -158,7 +159,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 			if time.Since(start) < time.Second {
 				return
 			}
-			fmt.Fprintf(stderr, "\r%6.1fs  distance in [%.6g, %.6g]   ", time.Since(start).Seconds(), pr.Lower, pr.Upper)
+			fmt.Fprintf(stderr, "\r%6.1fs  distance in [%s, %s]   ", time.Since(start).Seconds(), down(pr.Lower, 6), up(pr.Upper, 6))
 			printed = true
 		}
 	}
@@ -263,8 +264,8 @@ func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries 
 	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.Dim(), w.Tol(), stored)
 	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
 	vlo, vhi := res.ValueBounds()
-	fmt.Fprintf(out, "distance   d* in [%.10g, %.10g]   (certified, for the stored basis)\n", res.Lower, res.Upper)
-	fmt.Fprintf(out, "value      h* in [%.10g, %.10g]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %.2g\n", vlo, vhi, relGap(vlo, vhi))
+	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(res.Lower, 10), up(res.Upper, 10))
+	fmt.Fprintf(out, "value      h* in [%s, %s]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %s\n", down(vlo, 10), up(vhi, 10), up(relGap(vlo, vhi), 2))
 	fmt.Fprintf(out, "witness    x = %s\n", vecString(res.X))
 	fmt.Fprintf(out, "           y = %s\n", vecString(res.Y))
 	fmt.Fprintf(out, "found by   %s\n", res.FoundBy)
@@ -276,17 +277,24 @@ func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries 
 	fmt.Fprintf(out, "status     %s after %.3gs\n", res.Status, res.Elapsed.Seconds())
 	fmt.Fprintf(out, "\n%-28s %14s %14s %14s %9s\n", "strategy", "lower", "upper", "status", "seconds")
 	for _, e := range entries {
-		fmt.Fprintf(out, "%-28s %14.8g %14.8g %14s %9.3f\n", e.Name, e.Result.Lower, e.Result.Upper, e.Result.Status, e.Result.Elapsed.Seconds())
+		fmt.Fprintf(out, "%-28s %14s %14s %14s %9.3f\n", e.Name, down(e.Result.Lower, 8), up(e.Result.Upper, 8), e.Result.Status, e.Result.Elapsed.Seconds())
 	}
 }
 
-// relGap is (hi − lo)/hi, the certified relative gap on h*.
+// relGap is an upper bound on (hi − lo)/hi, the certified relative gap on
+// h* (each operation rounded upwards).
 func relGap(lo, hi float64) float64 {
 	if hi <= 0 {
 		return 0
 	}
-	return (hi - lo) / hi
+	return accurate.Up(accurate.Up(hi-lo) / hi)
 }
+
+// down and up print a certified lower or upper end with the given number of
+// significant digits, rounded outward so that the printed number is still a
+// bound (a %g would round to nearest and could cross the true value).
+func down(v float64, digits int) string { return accurate.FormatDown(v, digits) }
+func up(v float64, digits int) string   { return accurate.FormatUp(v, digits) }
 
 func vecString(v []float64) string {
 	var b strings.Builder

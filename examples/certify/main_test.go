@@ -4,8 +4,10 @@ import (
 	"bytes"
 	"encoding/json"
 	"math"
+	"math/big"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -187,5 +189,93 @@ func TestExtremeMagnitudesJSON(t *testing.T) {
 		if b, err := json.Marshal(c.v); err != nil || string(b) != c.want {
 			t.Errorf("%v encodes as %s (%v), want %s", float64(c.v), b, err, c.want)
 		}
+	}
+}
+
+// printedInterval returns the two ends printed on the "distance" and
+// "value" lines, as exact rationals, and the per-strategy table's ends.
+func printedEnds(t *testing.T, out string) (dist, val [2]*big.Rat, table [][2]*big.Rat) {
+	t.Helper()
+	parse := func(s string) *big.Rat {
+		r, ok := new(big.Rat).SetString(s)
+		if !ok {
+			t.Fatalf("unparsable number %q in\n%s", s, out)
+		}
+		return r
+	}
+	inTable := false
+	for _, line := range strings.Split(out, "\n") {
+		f := strings.Fields(line)
+		switch {
+		case strings.HasPrefix(line, "distance") || strings.HasPrefix(line, "value"):
+			i := strings.Index(line, "[")
+			j := strings.Index(line, "]")
+			ends := strings.Split(line[i+1:j], ", ")
+			pair := [2]*big.Rat{parse(ends[0]), parse(ends[1])}
+			if f[0] == "distance" {
+				dist = pair
+			} else {
+				val = pair
+			}
+		case len(f) > 0 && f[0] == "strategy":
+			inTable = true
+		case inTable && len(line) > 58:
+			// Columns: name %-28s, then lower and upper %14s each (with
+			// the separating spaces).
+			table = append(table, [2]*big.Rat{parse(strings.TrimSpace(line[28:43])), parse(strings.TrimSpace(line[43:58]))})
+		}
+	}
+	if dist[0] == nil || val[0] == nil || len(table) == 0 {
+		t.Fatalf("no interval found in\n%s", out)
+	}
+	return dist, val, table
+}
+
+// Every printed certified end must hold as printed: the lower ends at or
+// below d* (h* for the value line) and the upper ends at or above, checked
+// exactly in rational arithmetic on squares. These two cases printed a
+// false interval with %.10g (issue 11):
+//   - span{I₂}: d*² = 1/2 (Eckart–Young for one matrix: h* = σ₁²/‖A‖² = 1/2,
+//     common practice), so %.10g's 0.7071067812 > 1/√2 was a false lower end;
+//   - span{diag(1, t)}: h* = 1/(1+t²), d*² = t²/(1+t²) (the same theorem).
+func TestPrintedIntervalsHold(t *testing.T) {
+	dir := t.TempDir()
+	tv := 0.3
+	cases := []struct {
+		name string
+		body string
+		d2   *big.Rat // d*² exactly
+	}{
+		{"identity", "1 2 2\n1 0\n0 1\n", big.NewRat(1, 2)},
+		{"diag", "1 2 2\n1 0\n0 " + strconv.FormatFloat(tv, 'g', -1, 64) + "\n", func() *big.Rat {
+			t2 := new(big.Rat).SetFloat64(tv)
+			t2.Mul(t2, t2)
+			den := new(big.Rat).Add(big.NewRat(1, 1), t2)
+			return t2.Quo(t2, den)
+		}()},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			p := filepath.Join(dir, c.name+".txt")
+			os.WriteFile(p, []byte(c.body), 0o644)
+			code, out, errs := runCmd("-quiet", "-time", "1s", "-starts", "2", p)
+			if code != 0 {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			dist, val, table := printedEnds(t, out)
+			h := new(big.Rat).Sub(big.NewRat(1, 1), c.d2)
+			sq := func(r *big.Rat) *big.Rat { return new(big.Rat).Mul(r, r) }
+			if sq(dist[0]).Cmp(c.d2) > 0 || sq(dist[1]).Cmp(c.d2) < 0 {
+				t.Errorf("printed distance interval excludes d*:\n%s", out)
+			}
+			if val[0].Cmp(h) > 0 || val[1].Cmp(h) < 0 {
+				t.Errorf("printed value interval excludes h*:\n%s", out)
+			}
+			for _, e := range table {
+				if sq(e[0]).Cmp(c.d2) > 0 || sq(e[1]).Cmp(c.d2) < 0 {
+					t.Errorf("a strategy's printed interval [%s, %s] excludes d*:\n%s", e[0].FloatString(12), e[1].FloatString(12), out)
+				}
+			}
+		})
 	}
 }

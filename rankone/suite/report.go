@@ -10,6 +10,8 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+
+	"github.com/segre-lab/segre/internal/accurate"
 )
 
 // WriteJSONL writes one record per line (append-safe: concatenated files of
@@ -143,7 +145,7 @@ func Summary(recs []Record) []SummaryRow {
 				ok++
 			}
 			times[i] = r.Seconds
-			gaps[i] = r.Upper - r.Lower
+			gaps[i] = accurate.Up(r.Upper - r.Lower) // a width: never understated
 		}
 		out = append(out, SummaryRow{Family: k.fam, Size: k.size, Searcher: k.s, Runs: len(g),
 			SuccessRate: float64(ok) / float64(len(g)), MedianSeconds: quantile(times, 0.5),
@@ -174,8 +176,8 @@ func WriteSummary(w io.Writer, rows []SummaryRow) error {
 		if r.MedianPoints >= 0 {
 			pts = strconv.FormatFloat(r.MedianPoints, 'g', 4, 64)
 		}
-		fmt.Fprintf(bw, "%-26s %-14s %-18s %5d %7.0f%% %9.4f %9.4f %10.3g %6s\n", r.Family, r.Size, r.Searcher, r.Runs,
-			100*r.SuccessRate, r.MedianSeconds, r.P90Seconds, r.MedianGap, pts)
+		fmt.Fprintf(bw, "%-26s %-14s %-18s %5d %7.0f%% %9.4f %9.4f %10s %6s\n", r.Family, r.Size, r.Searcher, r.Runs,
+			100*r.SuccessRate, r.MedianSeconds, r.P90Seconds, accurate.FormatUp(r.MedianGap, 3), pts)
 	}
 	return bw.Flush()
 }
