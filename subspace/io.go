@@ -32,24 +32,56 @@ var npyMagic = []byte("\x93NUMPY")
 
 // ReadFile reads a basis from a .npy or plain-text file, telling them apart
 // by the .npy magic bytes. The file is opened read-only. Errors name the file.
+//
+// Besides the readers' own checks, ReadFile refuses a file whose size cannot
+// hold the declared shape (before allocating anything), an entry that is
+// NaN or infinite (ErrNotFinite, naming the matrix and entry) and a file in
+// which every matrix is zero (ErrZero), so that these errors name the file.
 func ReadFile(path string, maxBytes int64) (Basis, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return Basis{}, err
 	}
 	defer f.Close()
+	size := int64(-1)
+	if st, err := f.Stat(); err == nil && st.Mode().IsRegular() {
+		size = st.Size()
+	}
 	br := bufio.NewReader(f)
 	head, _ := br.Peek(len(npyMagic))
 	var b Basis
 	if bytes.Equal(head, npyMagic) {
-		b, err = ReadNPY(br, maxBytes)
+		b, err = readNPY(br, maxBytes, size)
 	} else {
-		b, err = ReadText(br, maxBytes)
+		b, err = readText(br, maxBytes, size)
+	}
+	if err == nil {
+		err = checkValues(b)
 	}
 	if err != nil {
 		return Basis{}, fmt.Errorf("%s: %w", path, err)
 	}
 	return b, nil
+}
+
+// checkValues refuses a basis with a NaN or infinite entry, or with every
+// entry zero.
+func checkValues(b Basis) error {
+	L := b.Rows * b.Cols
+	zero := true
+	for idx, v := range b.Data {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			t, rem := idx/L, idx%L
+			return fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/b.Cols, rem%b.Cols, v)
+		}
+		if v != 0 {
+			zero = false
+		}
+	}
+	if zero {
+		return fmt.Errorf("%w: all %d matrices of %d×%d", ErrZero, b.Count, b.Rows, b.Cols)
+	}
+	return nil
 }
 
 // readFailure reports a failed read: a file that ends early is malformed
@@ -69,21 +101,37 @@ func limitOf(maxBytes int64) int64 {
 	return maxBytes
 }
 
-// checkShape validates a shape read from a file against the memory limit.
+// checkShape validates a shape read from a file against the memory limit:
+// the data read (8 bytes an entry) and the working storage of New that
+// follows (workBytes) must fit in maxBytes together, so that the limit
+// bounds the peak of reading and orthonormalising, and a shape that New
+// would refuse is refused before a byte of data is read.
 func checkShape(r, m, n int64, maxBytes int64) (int, error) {
 	if r <= 0 || m <= 0 || n <= 0 {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d) has a zero or negative size", ErrFormat, r, m, n)
 	}
-	lim := limitOf(maxBytes) / 8
+	limit := limitOf(maxBytes)
+	lim := limit / 8
 	if r > lim || m > lim || n > lim || m*n > lim || r > lim/(m*n) {
-		return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limitOf(maxBytes))
+		return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
+	}
+	data := 8 * r * m * n
+	if need := data + workBytes(int(r), int(m*n)); need > limit || need < 0 {
+		return 0, fmt.Errorf("%w: shape (%d, %d, %d): reading (%d bytes) and orthonormalising need about %d bytes, limit %d",
+			ErrTooLarge, r, m, n, data, need, limit)
 	}
 	return int(r * m * n), nil
 }
 
-// ReadNPY reads a basis from NumPy .npy data. maxBytes bounds the data
-// accepted (0 means DefaultMaxBytes); nothing larger is allocated.
-func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
+// ReadNPY reads a basis from NumPy .npy data. maxBytes (0 means
+// DefaultMaxBytes) bounds the data and the orthonormalisation after it
+// together (see checkShape); the data are read in 64 KiB chunks into one
+// array of the declared size, so the peak is the data's size.
+func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) { return readNPY(rd, maxBytes, -1) }
+
+// readNPY is ReadNPY; size ≥ 0 is the whole stream's length when known, and
+// a stream too short for its declared shape is refused before allocating.
+func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	var pre [8]byte
 	if _, err := io.ReadFull(rd, pre[:]); err != nil {
 		return Basis{}, readFailure(err, "npy: truncated preamble")
@@ -133,46 +181,53 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) {
 	if err != nil {
 		return Basis{}, err
 	}
-	conv, size, err := npyConverter(descr)
+	conv, item, err := npyConverter(descr)
 	if err != nil {
 		return Basis{}, err
 	}
-	flat := make([]float64, 0, min(total, 1<<17))
+	if size >= 0 {
+		head := int64(len(pre)) + int64(hlen) + 2
+		if pre[6] != 1 {
+			head += 2
+		}
+		if want := head + int64(total)*int64(item); size < want {
+			return Basis{}, fmt.Errorf("%w: npy: data truncated: shape (%d, %d, %d) needs %d bytes, the file has %d", ErrFormat, r, m, n, want, size)
+		}
+	}
+	// One array of the declared size (its pages are touched only as data
+	// arrive), filled in file order; Fortran order, where element (t, i, j)
+	// is at t + r·(i + m·j), is scattered straight to its row-major place.
+	data := make([]float64, total)
+	ri, mi, ni := int(r), int(m), int(n)
+	place := func(s int) int { return s }
+	if fortran {
+		place = func(s int) int {
+			t, q := s%ri, s/ri
+			return (t*mi+q%mi)*ni + q/mi
+		}
+	}
 	buf := make([]byte, 1<<16)
-	buf = buf[:len(buf)/size*size]
-	for len(flat) < total {
-		want := min((total-len(flat))*size, len(buf))
+	buf = buf[:len(buf)/item*item]
+	for done := 0; done < total; {
+		want := min((total-done)*item, len(buf))
 		got, err := io.ReadFull(rd, buf[:want])
 		if err != nil {
-			return Basis{}, readFailure(err, fmt.Sprintf("npy: data truncated after %d of %d values", len(flat)+got/size, total))
+			return Basis{}, readFailure(err, fmt.Sprintf("npy: data truncated after %d of %d values", done+got/item, total))
 		}
-		for off := 0; off < got; off += size {
-			v, err := conv(buf[off : off+size])
+		for off := 0; off < got; off += item {
+			v, err := conv(buf[off : off+item])
 			if err != nil {
-				return Basis{}, fmt.Errorf("%w: npy: value %d: %v", ErrFormat, len(flat), err)
+				return Basis{}, fmt.Errorf("%w: npy: value %d: %v", ErrFormat, done, err)
 			}
-			flat = append(flat, v)
+			data[place(done)] = v
+			done++
 		}
 	}
 	var one [1]byte
 	if k, _ := rd.Read(one[:]); k > 0 {
 		return Basis{}, fmt.Errorf("%w: npy: trailing bytes after %d values", ErrFormat, total)
 	}
-	b := Basis{Count: int(r), Rows: int(m), Cols: int(n), Data: flat}
-	if fortran {
-		// Fortran order: element (t, i, j) is at t + r·(i + m·j).
-		c := make([]float64, total)
-		ri, mi, ni := int(r), int(m), int(n)
-		for t := 0; t < ri; t++ {
-			for i := 0; i < mi; i++ {
-				for j := 0; j < ni; j++ {
-					c[(t*mi+i)*ni+j] = flat[t+ri*(i+mi*j)]
-				}
-			}
-		}
-		b.Data = c
-	}
-	return b, nil
+	return Basis{Count: ri, Rows: mi, Cols: ni, Data: data}, nil
 }
 
 // parseNPYHeader parses the Python dict literal of an .npy header.
@@ -361,8 +416,22 @@ func checkBasis(b Basis) error {
 }
 
 // ReadText reads a basis in the plain-text format. maxBytes bounds the data
-// accepted (0 means DefaultMaxBytes). Errors give the line number.
-func ReadText(rd io.Reader, maxBytes int64) (Basis, error) {
+// and the orthonormalisation after it together (0 means DefaultMaxBytes; see
+// checkShape). Errors give the line number and the token.
+//
+// Numbers are plain decimals: an optional sign, digits with an optional
+// decimal point, an optional exponent (e or E, optional sign, digits).
+// Go-only syntaxes (hexadecimal floats, digit separators "_"), "inf" and
+// "nan" are refused, and so is a number that is not zero but lies outside
+// the float64 range: beyond ±1.8e308 (ErrNotFinite) or so small that it
+// would read as zero (below about 2.5e-324, ErrFormat). Numbers in the
+// subnormal range are read with the precision they have there.
+func ReadText(rd io.Reader, maxBytes int64) (Basis, error) { return readText(rd, maxBytes, -1) }
+
+// readText is ReadText; size ≥ 0 is the stream's length when known: each
+// number takes at least two bytes (a digit and a separator) except the last,
+// so a declared count above (size+1)/2 is refused before allocating.
+func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	sc := bufio.NewScanner(rd)
 	sc.Buffer(make([]byte, 64*1024), 1<<26)
 	line := 0
@@ -408,6 +477,11 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) {
 	if err != nil {
 		return Basis{}, err
 	}
+	if size >= 0 && int64(total) > (size+1)/2 {
+		return Basis{}, fmt.Errorf("%w: text: truncated: %d numbers declared, a file of %d bytes holds at most %d", ErrFormat, total, size, (size+1)/2)
+	}
+	// Grown as numbers arrive (a text file is at least twice as large as
+	// the count it holds, so growth never exceeds the data's bound).
 	data := make([]float64, 0, min(total, 1<<17))
 	for len(data) < total {
 		t, ln, err := next()
@@ -417,11 +491,9 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) {
 		if err != nil {
 			return Basis{}, err
 		}
-		v, e := strconv.ParseFloat(t, 64)
-		if e != nil {
-			if ne, ok := e.(*strconv.NumError); !ok || ne.Err != strconv.ErrRange {
-				return Basis{}, fmt.Errorf("%w: text: line %d: %q is not a number", ErrFormat, ln, t)
-			}
+		v, perr := parseDecimal(t)
+		if perr != nil {
+			return Basis{}, fmt.Errorf("%w: text: line %d: %q %s", perr, ln, t, perr.reason)
 		}
 		data = append(data, v)
 	}
@@ -431,4 +503,60 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) {
 		return Basis{}, err
 	}
 	return Basis{Count: int(dims[0]), Rows: int(dims[1]), Cols: int(dims[2]), Data: data}, nil
+}
+
+// numberError says why a token is not an acceptable number; it wraps the
+// sentinel (ErrFormat or ErrNotFinite).
+type numberError struct {
+	sentinel error
+	reason   string
+}
+
+func (e *numberError) Error() string { return e.sentinel.Error() }
+func (e *numberError) Unwrap() error { return e.sentinel }
+
+// parseDecimal parses a plain decimal number (see ReadText).
+func parseDecimal(t string) (float64, *numberError) {
+	i := 0
+	if i < len(t) && (t[i] == '+' || t[i] == '-') {
+		i++
+	}
+	digits, nonzero := 0, false
+	for ; i < len(t) && t[i] >= '0' && t[i] <= '9'; i++ {
+		digits++
+		nonzero = nonzero || t[i] != '0'
+	}
+	if i < len(t) && t[i] == '.' {
+		for i++; i < len(t) && t[i] >= '0' && t[i] <= '9'; i++ {
+			digits++
+			nonzero = nonzero || t[i] != '0'
+		}
+	}
+	if digits > 0 && i < len(t) && (t[i] == 'e' || t[i] == 'E') {
+		j := i + 1
+		if j < len(t) && (t[j] == '+' || t[j] == '-') {
+			j++
+		}
+		k := j
+		for ; k < len(t) && t[k] >= '0' && t[k] <= '9'; k++ {
+		}
+		if k > j {
+			i = k
+		}
+	}
+	if digits == 0 || i != len(t) {
+		low := strings.ToLower(strings.TrimLeft(t, "+-"))
+		if low == "inf" || low == "infinity" || low == "nan" {
+			return 0, &numberError{ErrNotFinite, "is not a finite number"}
+		}
+		return 0, &numberError{ErrFormat, "is not a plain decimal number"}
+	}
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil {
+		return 0, &numberError{ErrNotFinite, "overflows float64 (beyond ±1.8e308)"}
+	}
+	if v == 0 && nonzero {
+		return 0, &numberError{ErrFormat, "underflows to zero in float64 (below about 2.5e-324)"}
+	}
+	return v, nil
 }

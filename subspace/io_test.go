@@ -9,6 +9,8 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"runtime"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -268,5 +270,122 @@ func TestNewBadInput(t *testing.T) {
 	w, err := New(Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{1e300, 1e300, 1e-300, 0}}, Options{})
 	if err != nil || w.Dim() != 2 {
 		t.Fatalf("extreme magnitudes: %v", err)
+	}
+}
+
+// The text reader refuses, naming line and token: numbers that underflow to
+// zero or overflow float64, Go-only syntaxes (digit separators, hex floats)
+// and inf/nan; it accepts plain decimals, signs, a leading or trailing point
+// and subnormal values (issue 11: 1e-400 used to read as 0 and 1_0 as 10).
+func TestTextNumberSyntax(t *testing.T) {
+	bad := []struct {
+		tok  string
+		want error
+	}{
+		{"1e-400", ErrFormat}, {"-2.5e-330", ErrFormat}, {"1e400", ErrNotFinite}, {"-1e309", ErrNotFinite},
+		{"1_0", ErrFormat}, {"0x1p-3", ErrFormat}, {"1e5_0", ErrFormat}, {"inf", ErrNotFinite},
+		{"+Inf", ErrNotFinite}, {"NaN", ErrNotFinite}, {".", ErrFormat}, {"1e", ErrFormat}, {"e5", ErrFormat},
+		{"--1", ErrFormat}, {"1.2.3", ErrFormat},
+	}
+	for _, c := range bad {
+		_, err := ReadText(strings.NewReader("1 1 2\n1\n"+c.tok+"\n"), 0)
+		if !errors.Is(err, c.want) {
+			t.Errorf("%q: error %v, want %v", c.tok, err, c.want)
+			continue
+		}
+		if !strings.Contains(err.Error(), "line 3") || !strings.Contains(err.Error(), strconv.Quote(c.tok)) {
+			t.Errorf("%q: error %q should name line 3 and the token", c.tok, err)
+		}
+	}
+	// Accepted, with the values strconv gives (the reference parser for
+	// plain decimals; 1e-310 is subnormal and representable).
+	good := []string{"1", "-0", "+.5", "5.", "1.e3", "0.0", "1e-310", "-2E+5", "0e999", "0.000e-500"}
+	for _, tok := range good {
+		b, err := ReadText(strings.NewReader("1 1 2\n1 "+tok+"\n"), 0)
+		if err != nil {
+			t.Errorf("%q refused: %v", tok, err)
+			continue
+		}
+		want, _ := strconv.ParseFloat(tok, 64)
+		if b.Data[1] != want {
+			t.Errorf("%q read as %v, want %v", tok, b.Data[1], want)
+		}
+	}
+}
+
+// ReadFile names the file in the NaN/Inf and all-zero errors (issue 11).
+func TestReadFileNamesFile(t *testing.T) {
+	dir := t.TempDir()
+	nan := make([]byte, 32)
+	binary.LittleEndian.PutUint64(nan[8:], math.Float64bits(math.NaN()))
+	files := []struct {
+		name string
+		data []byte
+		want error
+	}{
+		{"nan.npy", npyBytes(1, "<f8", false, "(1, 2, 2)", nan), ErrNotFinite},
+		{"zero.npy", npyBytes(1, "<f8", false, "(1, 2, 2)", make([]byte, 32)), ErrZero},
+		{"zero.txt", []byte("2 1 2\n0 0\n0 -0\n"), ErrZero},
+		{"inf.txt", []byte("1 1 2\n0 inf\n"), ErrNotFinite},
+	}
+	for _, f := range files {
+		p := filepath.Join(dir, f.name)
+		if err := os.WriteFile(p, f.data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		_, err := ReadFile(p, 0)
+		if !errors.Is(err, f.want) || !strings.Contains(err.Error(), p) {
+			t.Errorf("%s: error %v, want %v naming the file", f.name, err, f.want)
+		}
+	}
+}
+
+// Reading is bounded by the memory limit before any data is allocated
+// (issue 11: a sparse file declaring (1, 18000, 18000) was read whole,
+// 6.5 GB, before New refused it). A sparse file of the declared size is
+// refused at once with ErrTooLarge (its data and New's working storage,
+// about 13 GB, exceed the 4 GiB default); a file too short for its shape
+// is refused as truncated before allocating; both allocate less than 1 MiB
+// (measured with runtime.MemStats, derived bound: the 64 KiB read buffer
+// and the header).
+func TestReadBoundedBeforeAllocating(t *testing.T) {
+	dir := t.TempDir()
+	mk := func(name, shape string, dataBytes int64) string {
+		p := filepath.Join(dir, name)
+		hdr := npyBytes(1, "<f8", false, shape, nil)
+		if err := os.WriteFile(p, hdr, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.Truncate(p, int64(len(hdr))+dataBytes); err != nil { // sparse
+			t.Fatal(err)
+		}
+		return p
+	}
+	huge := mk("huge.npy", "(1, 18000, 18000)", 8*18000*18000)
+	short := mk("short.npy", "(1, 1000, 1000)", 8*1000)
+	txt := filepath.Join(dir, "short.txt")
+	os.WriteFile(txt, []byte("4 500 500\n1 2 3\n"), 0o644)
+	for _, c := range []struct {
+		path string
+		want error
+	}{{huge, ErrTooLarge}, {short, ErrFormat}, {txt, ErrFormat}} {
+		var before, after runtime.MemStats
+		runtime.GC()
+		runtime.ReadMemStats(&before)
+		_, err := ReadFile(c.path, 0)
+		runtime.ReadMemStats(&after)
+		if !errors.Is(err, c.want) {
+			t.Errorf("%s: error %v, want %v", c.path, err, c.want)
+		}
+		if d := after.TotalAlloc - before.TotalAlloc; d > 1<<20 {
+			t.Errorf("%s: %d bytes allocated before refusing", c.path, d)
+		}
+	}
+	// A limit that holds the data but not the orthonormalisation after it
+	// refuses the shape too (1 matrix of 100×100: 80 kB of data, New needs
+	// about 5 × 80 kB, derived from workBytes).
+	small := mk("small.npy", "(1, 100, 100)", 8*100*100)
+	if _, err := ReadFile(small, 200_000); !errors.Is(err, ErrTooLarge) {
+		t.Errorf("limit 200 kB: error %v, want ErrTooLarge", err)
 	}
 }
