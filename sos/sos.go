@@ -231,14 +231,17 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if hb, verr := Verify(w, rel.Certificate(sol.Y)); verr == nil {
 		if lo := lowerFromH(hb); lo > 0 {
 			res.Lower, res.LowerBy = lo, "sos level 1"
-			if RankOne(sol.X, 1e-6) {
-				res.LowerBy = "sos level 1 (moment matrix of rank one: the relaxation is exact)"
-			}
 		}
 	}
 	// Round the moment matrix to a point.
 	if x, y, ok := round(sol.X, m, n); ok {
 		keepBetter(ctx, w, &res, x, y)
+	}
+	// "Exact" is said only when the certified interval shows it: the
+	// rounded witness meets the certified bound. A numerically rank-one
+	// moment matrix alone is evidence, not proof.
+	if res.LowerBy != "" && closed(res) {
+		res.LowerBy = exactLabel
 	}
 	return finishResult(ctx, res, begin, err)
 }
@@ -260,10 +263,19 @@ func keepBetter(ctx context.Context, w *subspace.Subspace, res *rankone.Result, 
 	}
 }
 
+// exactLabel is Bound's LowerBy when the certified interval closes.
+const exactLabel = "sos level 1 (exact here: the certified interval closes)"
+
+// closed reports whether the certified interval has closed to the relative
+// width at which the SOS searchers report GapReached.
+func closed(res rankone.Result) bool {
+	return res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300)
+}
+
 // finishResult sets the final status (gap reached when the relaxation is
 // exact here, cancelled on a done context) and the elapsed time.
 func finishResult(ctx context.Context, res rankone.Result, begin time.Time, err error) (rankone.Result, error) {
-	if res.Upper-res.Lower <= 1e-9*math.Max(res.Upper, 1e-300) {
+	if closed(res) {
 		res.Status = rankone.GapReached
 	}
 	res.Elapsed = time.Since(begin)
