@@ -24,7 +24,10 @@ import (
 // evaluated with downward rounding.
 //
 // The bound is exact for one matrix (k = 1: λmax(QQᵀ) = σ₁², Eckart–Young)
-// and useless (hUpper = 1) when W is large.
+// and useless (hUpper = 1) when W is large. For one matrix the lower bound
+// on d* is also computed from the tail of the singular values, without
+// forming 1 − h (see oneMatrixLower), so that it stays positive for
+// distances down to about 1e-15 instead of 1e-8.
 func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
 	return FlatteningBoundContext(context.Background(), w)
 }
@@ -39,6 +42,9 @@ func FlatteningBoundContext(ctx context.Context, w *subspace.Subspace) (hUpper, 
 		hUpper = 0
 	}
 	lower = accurate.SqrtDown(accurate.Down(1 - hUpper))
+	if d2, ok := oneMatrixLower(ctx, w); ok {
+		lower = math.Max(lower, accurate.SqrtDown(d2))
+	}
 	return hUpper, lower
 }
 
