@@ -95,6 +95,8 @@ type Subspace struct {
 	orthFl        float64 // ‖SSᵀ − I‖_F as computed
 	eta           float64 // proven bound on ‖SSᵀ − I‖₂
 	sumSq         float64 // proven upper bound on ‖S‖_F² (accurate.SumSqUpper of the stored rows)
+	rankKept      float64 // |R_kk| of the last pivot kept by the rank decision
+	rankLeft      float64 // norm of the first column left out (0 when none)
 
 	ptMu    [2]sync.Mutex // the partial traces, each side computed on first complete use
 	ptDone  [2]bool
@@ -138,6 +140,13 @@ func (w *Subspace) StoresComplement() bool { return w.comp }
 func (w *Subspace) BackwardError() (reconstruction, orthogonality float64) {
 	return w.recon, w.orthFl
 }
+
+// RankGap describes the rank decision of the pivoted QR of the
+// unit-normalised inputs: the size |R_kk| of the last pivot kept and the
+// norm of the first column left out (0 when every nonzero input was kept;
+// it was at most Tol). A wide gap (kept ≫ left) means a clear decision.
+// These are floating-point estimates, not certified.
+func (w *Subspace) RankGap() (kept, left float64) { return w.rankKept, w.rankLeft }
 
 // OrthogonalityBound returns η, a proven upper bound on ‖SSᵀ − I‖₂ for the
 // stored vectors S, rounding of its computation included. Certified bounds
@@ -248,7 +257,10 @@ func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 		return cancelled()
 	}
 	k := f.k
-	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: r, zeros: zeros}
+	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: r, zeros: zeros, rankLeft: f.left}
+	if k > 0 {
+		w.rankKept = math.Abs(f.diag[k-1])
+	}
 	w.comp = L-k < k
 
 	var refl []float64
@@ -304,6 +316,7 @@ type qrFactors struct {
 	diag []float64 // R_jj
 	beta []float64 // H_j = I − beta_j v_j v_jᵀ, v_j stored in row j from entry j
 	r    []float64 // R, k×rr row-major, in pivoted column order
+	left float64   // norm of the first column left out by the rank decision (0: none)
 }
 
 // pivotedQR factors a in place (Businger & Golub, Numer. Math. 7, 1965:
@@ -340,6 +353,7 @@ func pivotedQR(a []float64, rr, L int, tol float64, stop func() bool) *qrFactors
 		x := a[j*L+j : (j+1)*L]
 		xn := blas64.Nrm2(blas64.Vector{N: len(x), Data: x, Inc: 1})
 		if xn <= tol {
+			f.left = xn
 			break
 		}
 		// H = I − beta·v vᵀ with v = x − alpha·e₁, alpha = −sign(x₀)‖x‖, so that
