@@ -133,6 +133,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 		}
 		return 2
 	}
+	span := inputSpan(ctx, b, w)
 	showProgress := !c.quiet && (!c.asJSON || c.progress)
 	start := time.Now()
 	members := []rankone.Searcher{
@@ -172,10 +173,40 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return 1
 	}
 	if c.asJSON {
-		return writeJSON(stdout, stderr, w, res, entries, source)
+		return writeJSON(stdout, stderr, w, res, entries, source, span)
 	}
-	writeText(stdout, w, res, entries, source)
+	writeText(stdout, w, res, entries, source, span)
 	return 0
+}
+
+// spanInfo says how the certified interval, proven for the stored basis,
+// carries over to the span of the matrices as given.
+type spanInfo struct {
+	theta float64 // proven ‖P_V − P_W‖₂ (valid when ok)
+	ok    bool
+	note  string // why it holds for the stored basis only, when !ok
+}
+
+// inputSpan proves the distance between the input's span and the stored
+// subspace (subspace.InputDistance) or says why it cannot.
+func inputSpan(ctx context.Context, b subspace.Basis, w *subspace.Subspace) spanInfo {
+	th, err := subspace.InputDistance(ctx, b, w)
+	switch {
+	case err == nil:
+		return spanInfo{theta: th, ok: true}
+	case errors.Is(err, subspace.ErrDependent):
+		kept, left := w.RankGap()
+		return spanInfo{note: fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
+			w.Dim(), w.Tol(), kept, left)}
+	default:
+		return spanInfo{note: "not proven (" + oneLine(err) + "): the interval holds for the stored basis only"}
+	}
+}
+
+// widen returns [lo − θ, up + θ] rounded outward, within [0, 1].
+func (s spanInfo) widen(lo, up float64) (float64, float64) {
+	l := accurate.Down(lo - s.theta)
+	return math.Max(l, 0), math.Min(1, accurate.Up(up+s.theta))
 }
 
 func oneLine(err error) string {
@@ -205,6 +236,10 @@ type jsonSearcher struct {
 
 type jsonOut struct {
 	Source           string         `json:"source"`
+	InputLower       *number        `json:"input_lower"`
+	InputUpper       *number        `json:"input_upper"`
+	InputDistance    *number        `json:"input_distance"`
+	InputNote        string         `json:"input_note,omitempty"`
 	Rows             int            `json:"rows"`
 	Cols             int            `json:"cols"`
 	Inputs           int            `json:"inputs"`
@@ -227,7 +262,7 @@ type jsonOut struct {
 	Searchers        []jsonSearcher `json:"searchers"`
 }
 
-func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string) int {
+func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string, span spanInfo) int {
 	given, _ := w.Inputs()
 	rec, _ := w.BackwardError()
 	vlo, vhi := res.ValueBounds()
@@ -236,6 +271,13 @@ func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Resul
 		Lower: number(res.Lower), Upper: number(res.Upper), ValueLower: number(vlo), ValueUpper: number(vhi),
 		Gap: number(relGap(vlo, vhi)), X: res.X, Y: res.Y,
 		FoundBy: res.FoundBy, LowerBy: res.LowerBy, Status: res.Status.String(), Seconds: number(res.Elapsed.Seconds())}
+	if span.ok {
+		lo, up := span.widen(res.Lower, res.Upper)
+		l, u, th := number(lo), number(up), number(span.theta)
+		out.InputLower, out.InputUpper, out.InputDistance = &l, &u, &th
+	} else {
+		out.InputNote = span.note
+	}
 	for _, e := range entries {
 		out.Searchers = append(out.Searchers, jsonSearcher{Name: e.Name, Lower: number(e.Result.Lower), Upper: number(e.Result.Upper),
 			Status: e.Result.Status.String(), Seconds: number(e.Result.Elapsed.Seconds())})
@@ -249,7 +291,7 @@ func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Resul
 	return 0
 }
 
-func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string) {
+func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string, span spanInfo) {
 	given, zeros := w.Inputs()
 	rec, orth := w.BackwardError()
 	stored := "W"
@@ -265,6 +307,13 @@ func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries 
 	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
 	vlo, vhi := res.ValueBounds()
 	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(res.Lower, 10), up(res.Upper, 10))
+	if span.ok {
+		lo, hi := span.widen(res.Lower, res.Upper)
+		fmt.Fprintf(out, "input span d* in [%s, %s]   (certified for the span of the matrices as given: the stored basis is within %s of it)\n",
+			down(lo, 10), up(hi, 10), up(span.theta, 2))
+	} else {
+		fmt.Fprintf(out, "input span %s\n", span.note)
+	}
 	fmt.Fprintf(out, "value      h* in [%s, %s]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %s\n", down(vlo, 10), up(vhi, 10), up(relGap(vlo, vhi), 2))
 	fmt.Fprintf(out, "witness    x = %s\n", vecString(res.X))
 	fmt.Fprintf(out, "           y = %s\n", vecString(res.Y))

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"math"
 	"math/big"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -278,4 +279,128 @@ func TestPrintedIntervalsHold(t *testing.T) {
 			}
 		})
 	}
+}
+
+// On an ill-conditioned input (two 2×4 matrices A and A + εC, condition
+// about 1e14) the stored basis spans a subspace measurably different from
+// the input's span, so the interval for the stored basis may exclude the
+// input span's d* (issue 11). The "input span" interval, widened by the
+// proven distance θ, must contain it. Reference: the input span's d*,
+// computed here from a 400-bit orthonormal basis of {A, A+εC} (Gram–Schmidt
+// twice in big.Float) and, for m = 2, h(x) = λmax of the 2×2 Gram matrix of
+// a_t = U_tᵀx maximised over x = (cos φ, sin φ) by a grid of 20000 angles and
+// golden-section refinement (derived here: h(x, ·) is maximised by the top
+// eigenvector of Σ_t a_t a_tᵀ, whose nonzero spectrum is the Gram matrix's).
+func TestInputSpanInterval(t *testing.T) {
+	rng := rand.New(rand.NewPCG(61, 62))
+	a, c := make([]float64, 8), make([]float64, 8)
+	for i := range a {
+		a[i], c[i] = rng.NormFloat64(), rng.NormFloat64()
+	}
+	b2 := make([]float64, 8)
+	for i := range b2 {
+		b2[i] = a[i] + 3e-14*c[i]
+	}
+	var sb strings.Builder
+	sb.WriteString("2 2 4\n")
+	for _, v := range append(append([]float64(nil), a...), b2...) {
+		sb.WriteString(strconv.FormatFloat(v, 'g', -1, 64) + "\n")
+	}
+	p := filepath.Join(t.TempDir(), "ill.txt")
+	os.WriteFile(p, []byte(sb.String()), 0o644)
+	code, out, errs := runCmd("-json", "-time", "2s", "-starts", "4", p)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var v map[string]any
+	if err := json.Unmarshal([]byte(out), &v); err != nil {
+		t.Fatal(err)
+	}
+	il, ok1 := v["input_lower"].(float64)
+	iu, ok2 := v["input_upper"].(float64)
+	if !ok1 || !ok2 {
+		t.Fatalf("no input-span interval: %v", v["input_note"])
+	}
+	ref := twoRowSpanDistance(a, b2)
+	if !(il <= ref && ref <= iu) {
+		t.Errorf("input-span interval [%v, %v] excludes the input span's d* = %v", il, iu, ref)
+	}
+	t.Logf("stored basis [%v, %v], input span [%v, %v], θ = %v, input span's d* = %v",
+		v["lower"], v["upper"], il, iu, v["input_distance"], ref)
+}
+
+// twoRowSpanDistance returns d* of span{A, B} for 2×4 matrices A and B
+// (row-major), as described in TestInputSpanInterval.
+func twoRowSpanDistance(a, b []float64) float64 {
+	const prec = 400
+	toBig := func(x []float64) []*big.Float {
+		v := make([]*big.Float, len(x))
+		for i, e := range x {
+			v[i] = new(big.Float).SetPrec(prec).SetFloat64(e)
+		}
+		return v
+	}
+	dot := func(x, y []*big.Float) *big.Float {
+		s := new(big.Float).SetPrec(prec)
+		for i := range x {
+			s.Add(s, new(big.Float).SetPrec(prec).Mul(x[i], y[i]))
+		}
+		return s
+	}
+	var basis [][]float64
+	var done [][]*big.Float
+	for _, r := range [][]float64{a, b} {
+		v := toBig(r)
+		for pass := 0; pass < 2; pass++ {
+			for _, q := range done {
+				d := dot(q, v)
+				for i := range v {
+					v[i].Sub(v[i], new(big.Float).SetPrec(prec).Mul(d, q[i]))
+				}
+			}
+		}
+		nrm := new(big.Float).SetPrec(prec).Sqrt(dot(v, v))
+		f := make([]float64, len(v))
+		for i := range v {
+			v[i].Quo(v[i], nrm)
+			f[i], _ = v[i].Float64()
+		}
+		done = append(done, v)
+		basis = append(basis, f)
+	}
+	h := func(phi float64) float64 {
+		x := [2]float64{math.Cos(phi), math.Sin(phi)}
+		var at [2][4]float64
+		for t := 0; t < 2; t++ {
+			for j := 0; j < 4; j++ {
+				at[t][j] = x[0]*basis[t][j] + x[1]*basis[t][4+j]
+			}
+		}
+		var p, q, r float64
+		for j := 0; j < 4; j++ {
+			p += at[0][j] * at[0][j]
+			q += at[1][j] * at[1][j]
+			r += at[0][j] * at[1][j]
+		}
+		return (p+q)/2 + math.Sqrt((p-q)*(p-q)/4+r*r)
+	}
+	const grid = 20000
+	best, bestPhi := -1.0, 0.0
+	for i := 0; i < grid; i++ {
+		phi := math.Pi * float64(i) / grid
+		if v := h(phi); v > best {
+			best, bestPhi = v, phi
+		}
+	}
+	lo, hi := bestPhi-math.Pi/grid, bestPhi+math.Pi/grid
+	g := (math.Sqrt(5) - 1) / 2
+	for it := 0; it < 100; it++ {
+		m1, m2 := hi-g*(hi-lo), lo+g*(hi-lo)
+		if h(m1) > h(m2) {
+			hi = m2
+		} else {
+			lo = m1
+		}
+	}
+	return math.Sqrt(1 - h((lo+hi)/2))
 }
