@@ -106,6 +106,7 @@ type Progress struct {
 	Frontier     int     // cells waiting (global searches)
 	Upper, Lower float64 // best certified bounds so far (Upper = 1 before any)
 	Value        float64 // best h so far (not certified)
+	Estimate     float64 // a method's own estimate of h* (an SDP's objective; not certified), 0 if none
 	Elapsed      time.Duration
 }
 

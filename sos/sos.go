@@ -202,8 +202,11 @@ func (r *Relaxation) Certificate(y []float64) Certificate {
 type Bound struct {
 	// MaxIter bounds the interior-point iterations; zero means 100.
 	MaxIter int
-	// Progress, if set, receives iteration, primal and dual objectives.
-	Progress func(iter int, primal, dual, gap float64)
+	// Progress, if set, is called at most every 200 ms with the solver's
+	// iteration and, in Estimate, its current dual objective (an estimate
+	// of the relaxation's value, not certified: only the certificate
+	// verified at the end proves a bound).
+	Progress func(rankone.Progress)
 }
 
 var _ rankone.Searcher = (*Bound)(nil)
@@ -220,7 +223,14 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if err != nil {
 		return res, err
 	}
-	sol, err := sdp.Solve(ctx, rel.Problem, sdp.Settings{MaxIter: b.MaxIter, Progress: b.Progress})
+	var hook func(int, float64, float64, float64)
+	if b.Progress != nil {
+		gate := rankone.NewThrottle(b.Progress)
+		hook = func(it int, _, dual, _ float64) {
+			gate.Report(rankone.Progress{Searcher: b.Name(), Iteration: it, Estimate: dual, Upper: res.Upper})
+		}
+	}
+	sol, err := sdp.Solve(ctx, rel.Problem, sdp.Settings{MaxIter: b.MaxIter, Progress: hook})
 	if sol == nil {
 		return res, err
 	}

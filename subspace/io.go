@@ -50,6 +50,9 @@ func ReadFile(path string, maxBytes int64) (Basis, error) {
 	br := bufio.NewReader(f)
 	head, _ := br.Peek(len(npyMagic))
 	var b Basis
+	if bytes.HasPrefix(head, []byte("PK\x03\x04")) || bytes.HasPrefix(head, []byte("PK\x05\x06")) {
+		return Basis{}, fmt.Errorf("%s: %w: a zip archive (an .npz file?): save one array with numpy.save as .npy", path, ErrFormat)
+	}
 	if bytes.Equal(head, npyMagic) {
 		b, err = readNPY(br, maxBytes, size)
 	} else {
@@ -432,7 +435,11 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) { return readText(rd,
 // number takes at least two bytes (a digit and a separator) except the last,
 // so a declared count above (size+1)/2 is refused before allocating.
 func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
-	sc := bufio.NewScanner(rd)
+	br := bufio.NewReader(rd)
+	if bom, _ := br.Peek(3); bytes.Equal(bom, []byte("\xEF\xBB\xBF")) {
+		br.Discard(3) // a UTF-8 byte-order mark, as some editors write
+	}
+	sc := bufio.NewScanner(br)
 	sc.Buffer(make([]byte, 64*1024), 1<<26)
 	line := 0
 	var tokens []string
@@ -469,7 +476,7 @@ func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
 		}
 		v, e := strconv.ParseInt(t, 10, 64)
 		if e != nil {
-			return Basis{}, fmt.Errorf("%w: text: line %d: header entry %q is not an integer", ErrFormat, ln, t)
+			return Basis{}, fmt.Errorf("%w: text: line %d: header entry %s is not an integer", ErrFormat, ln, quoteToken(t))
 		}
 		dims[i] = v
 	}
@@ -493,12 +500,12 @@ func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
 		}
 		v, perr := parseDecimal(t)
 		if perr != nil {
-			return Basis{}, fmt.Errorf("%w: text: line %d: %q %s", perr, ln, t, perr.reason)
+			return Basis{}, fmt.Errorf("%w: text: line %d: %s %s", perr, ln, quoteToken(t), perr.reason)
 		}
 		data = append(data, v)
 	}
 	if t, ln, err := next(); err == nil {
-		return Basis{}, fmt.Errorf("%w: text: line %d: unexpected %q after the %d numbers", ErrFormat, ln, t, total)
+		return Basis{}, fmt.Errorf("%w: text: line %d: unexpected %s after the %d numbers", ErrFormat, ln, quoteToken(t), total)
 	} else if err != io.EOF {
 		return Basis{}, err
 	}
@@ -559,4 +566,13 @@ func parseDecimal(t string) (float64, *numberError) {
 		return 0, &numberError{ErrFormat, "underflows to zero in float64 (below about 2.5e-324)"}
 	}
 	return v, nil
+}
+
+// quoteToken quotes a token for an error message, cut to 32 bytes, so
+// that a binary file read as text does not fill the terminal.
+func quoteToken(t string) string {
+	if len(t) > 32 {
+		return strconv.QuoteToASCII(t[:32]) + "…"
+	}
+	return strconv.QuoteToASCII(t)
 }

@@ -389,3 +389,26 @@ func TestReadBoundedBeforeAllocating(t *testing.T) {
 		t.Errorf("limit 200 kB: error %v, want ErrTooLarge", err)
 	}
 }
+
+// A UTF-8 byte-order mark before a text basis is skipped; an .npz (zip)
+// archive is recognised and refused without printing its bytes; a binary
+// token is shown cut short and escaped (issue 12).
+func TestTextBOMAndArchives(t *testing.T) {
+	b, err := ReadText(strings.NewReader("\xEF\xBB\xBF1 1 2\n3 4\n"), 0)
+	if err != nil || b.Data[0] != 3 || b.Data[1] != 4 {
+		t.Errorf("BOM: %v, %v", b.Data, err)
+	}
+	dir := t.TempDir()
+	npz := filepath.Join(dir, "a.npz")
+	os.WriteFile(npz, append([]byte("PK\x03\x04"), make([]byte, 100)...), 0o644)
+	_, err = ReadFile(npz, 0)
+	if !errors.Is(err, ErrFormat) || !strings.Contains(err.Error(), "zip") || strings.ContainsRune(err.Error(), 0) {
+		t.Errorf("npz: %v", err)
+	}
+	junk := filepath.Join(dir, "junk.bin")
+	os.WriteFile(junk, append([]byte("1 1 1\n"), bytes.Repeat([]byte{0xff, 0x01}, 500)...), 0o644)
+	_, err = ReadFile(junk, 0)
+	if !errors.Is(err, ErrFormat) || len(err.Error()) > 300 || strings.ContainsRune(err.Error(), 1) {
+		t.Errorf("binary junk: %q", err)
+	}
+}

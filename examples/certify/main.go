@@ -1,11 +1,13 @@
 // Command certify finds the rank-one matrix nearest to a subspace of m×n
-// matrices and prints a certified interval on its distance.
+// matrices and prints a certified interval on its distance. It is a thin
+// front end to segre.CertifyBasis: flags, reading, printing.
 //
-//	go run ./examples/certify [flags] [FILE]
+//	go run ./examples/certify [flags] [FILE] [flags]
 //
-// FILE is a basis in NumPy .npy format (shape (r, m, n)) or in the plain-text
-// format described in the README. Without FILE it runs on an embedded demo
-// subspace. Bad input gives a one-line message on stderr and exit status 2.
+// FILE is a basis in NumPy .npy format (shape (r, m, n) or (m, n)) or in the
+// plain-text format described in the README. Without FILE it runs on an
+// embedded demo subspace. Bad input gives a one-line message on stderr and
+// exit status 2; the other exit statuses are listed in usage.
 package main
 
 import (
@@ -18,24 +20,24 @@ import (
 	"math"
 	"os"
 	"os/signal"
+	"strconv"
 	"strings"
 	"time"
 
+	"github.com/segre-lab/segre"
 	"github.com/segre-lab/segre/internal/accurate"
-	"github.com/segre-lab/segre/net"
-	"github.com/segre-lab/segre/rankone"
-	"github.com/segre-lab/segre/sos"
 	"github.com/segre-lab/segre/subspace"
 )
 
-// maxBranchBoundSide is the largest min(m, n) for which the command runs
-// branch-and-bound (measured: min(m, n) = 4, max 64 certifies a 1e-6 gap in
-// about a minute; each extra dimension multiplies the cells by far more).
-const maxBranchBoundSide = 5
-
-// maxSOSSize is the largest m·n for which the command runs the level-one
-// sum-of-squares relaxation.
-const maxSOSSize = 64
+// Exit codes: what a script can rely on.
+const (
+	exitCertified   = 0   // the certified interval met the requested gap
+	exitInternal    = 1   // an unexpected failure (not the input's fault)
+	exitBadInput    = 2   // bad flags or a bad input file: one line on stderr
+	exitBudget      = 3   // the budget ran out before the gap was met
+	exitNothingMore = 4   // every strategy finished without meeting the gap
+	exitInterrupted = 130 // interrupted (Ctrl-C), as shells report SIGINT
+)
 
 func main() {
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
@@ -54,53 +56,93 @@ type config struct {
 	file     string
 }
 
-func parse(args []string, stderr io.Writer) (config, int, bool) {
-	var c config
+const usage = `usage: certify [flags] [FILE]
+FILE is a basis: .npy of shape (r, m, n) or (m, n), or plain text; without
+FILE the embedded demo runs. Flags may come before or after FILE.
+Exit status: 0 certified to the gap, 3 budget spent first, 4 nothing more
+to try, 2 bad input, 130 interrupted, 1 internal failure.
+Flags:`
+
+func newFlags(c *config) *flag.FlagSet {
 	fs := flag.NewFlagSet("certify", flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
-	fs.DurationVar(&c.budget, "time", 3*time.Second, "time budget for the search")
+	fs.DurationVar(&c.budget, "time", 3*time.Second, "time budget for the search, e.g. 500ms, 10s, 2m")
 	fs.BoolVar(&c.asJSON, "json", false, "print one JSON object on stdout")
 	fs.BoolVar(&c.progress, "progress", false, "show progress on stderr even with -json")
 	fs.BoolVar(&c.quiet, "quiet", false, "no progress on stderr")
 	fs.Uint64Var(&c.seed, "seed", 1, "seed of the random starts")
 	fs.IntVar(&c.starts, "starts", 32, "starting points per local method")
 	fs.Float64Var(&c.tol, "tol", 0, "rank tolerance (0: max(mn, r)·2^-52)")
-	fs.Int64Var(&c.maxBytes, "maxbytes", 0, "memory limit in bytes for the basis (0: 4 GiB)")
-	fs.Float64Var(&c.gap, "gap", 1e-6, "relative gap on h* at which branch-and-bound stops")
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			fmt.Fprintln(stderr, "usage: certify [flags] [FILE]   (FILE: .npy of shape (r, m, n) or plain text; none: the demo)")
-			fs.SetOutput(stderr)
-			fs.PrintDefaults()
-			return c, 0, false
+	fs.Int64Var(&c.maxBytes, "maxbytes", 0, "memory limit in bytes for reading and orthonormalising (0: 4 GiB)")
+	fs.Float64Var(&c.gap, "gap", 1e-6, "requested relative gap on h*: the search stops when the certified interval meets it")
+	return fs
+}
+
+func parse(args []string, stderr io.Writer) (config, int, bool) {
+	var c config
+	fs := newFlags(&c)
+	bad := func(format string, a ...any) (config, int, bool) {
+		fmt.Fprintf(stderr, "certify: "+format+"\n", a...)
+		return c, exitBadInput, false
+	}
+	// Flags may follow FILE: parse, take one positional argument, parse
+	// what follows it again.
+	var files []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				fmt.Fprintln(stderr, usage)
+				fs.SetOutput(stderr)
+				fs.PrintDefaults()
+				return c, 0, false
+			}
+			return bad("%s%s", err, durationHint(err, args))
 		}
-		fmt.Fprintf(stderr, "certify: %v\n", err)
-		return c, 2, false
+		if fs.NArg() == 0 {
+			break
+		}
+		files = append(files, fs.Arg(0))
+		args = fs.Args()[1:]
 	}
 	switch {
 	case c.budget <= 0:
-		fmt.Fprintf(stderr, "certify: -time must be positive, got %v\n", c.budget)
-		return c, 2, false
+		return bad("-time must be positive, got %v", c.budget)
 	case c.starts < 1 || c.starts > 1_000_000:
-		fmt.Fprintf(stderr, "certify: -starts must be between 1 and 1000000, got %d\n", c.starts)
-		return c, 2, false
+		return bad("-starts must be between 1 and 1000000, got %d", c.starts)
 	case c.tol < 0 || c.tol >= 1 || math.IsNaN(c.tol):
-		fmt.Fprintf(stderr, "certify: -tol must be in [0, 1), got %v\n", c.tol)
-		return c, 2, false
+		return bad("-tol must be in [0, 1), got %v", c.tol)
 	case !(c.gap > 0 && c.gap < 1):
-		fmt.Fprintf(stderr, "certify: -gap must be in (0, 1), got %v\n", c.gap)
-		return c, 2, false
+		return bad("-gap must be in (0, 1), got %v", c.gap)
 	case c.maxBytes < 0:
-		fmt.Fprintf(stderr, "certify: -maxbytes must not be negative, got %d\n", c.maxBytes)
-		return c, 2, false
-	case fs.NArg() > 1:
-		fmt.Fprintf(stderr, "certify: at most one FILE, got %d arguments\n", fs.NArg())
-		return c, 2, false
+		return bad("-maxbytes must not be negative, got %d", c.maxBytes)
+	case len(files) > 1:
+		return bad("at most one FILE, got %d: %s", len(files), strings.Join(files, ", "))
 	}
-	if fs.NArg() == 1 {
-		c.file = fs.Arg(0)
+	if len(files) == 1 {
+		c.file = files[0]
 	}
 	return c, 0, true
+}
+
+// durationHint suggests a unit when -time was given a bare number.
+func durationHint(err error, args []string) string {
+	if !strings.Contains(err.Error(), "-time") {
+		return ""
+	}
+	for i, a := range args {
+		v := a
+		if strings.HasPrefix(a, "-time=") || strings.HasPrefix(a, "--time=") {
+			v = a[strings.IndexByte(a, '=')+1:]
+		} else if (a == "-time" || a == "--time") && i+1 < len(args) {
+			v = args[i+1]
+		} else {
+			continue
+		}
+		if _, ferr := strconv.ParseFloat(v, 64); ferr == nil {
+			return fmt.Sprintf(" (a duration needs a unit: -time %ss)", v)
+		}
+	}
+	return ""
 }
 
 func run(args []string, stdout, stderr io.Writer) int {
@@ -117,96 +159,91 @@ func run(args []string, stdout, stderr io.Writer) int {
 		b, err = subspace.ReadFile(c.file, c.maxBytes)
 		if err != nil {
 			fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
-			return 2
+			return exitBadInput
 		}
 		source = c.file
 	}
-	// Interrupt (Ctrl-C) stops the orthonormalisation too; -time budgets
-	// the search that follows it.
+	// Interrupt (Ctrl-C) stops every phase; -time budgets the search.
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
-	w, err := subspace.NewContext(ctx, b, subspace.Options{Tol: c.tol, MaxBytes: c.maxBytes})
+	opt := segre.Options{Budget: c.budget, Gap: c.gap, Starts: c.starts, Seed: c.seed,
+		Subspace: subspace.Options{Tol: c.tol, MaxBytes: c.maxBytes}}
+	var pr *progressLine
+	if !c.quiet && (!c.asJSON || c.progress) {
+		pr = &progressLine{out: stderr}
+		opt.Progress = pr.show
+	}
+	w, rep, err := segre.CertifyBasis(ctx, b, opt)
+	pr.end()
 	if err != nil {
 		fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
-		if ctx.Err() != nil {
-			return 1 // interrupted, not bad input
+		switch {
+		case ctx.Err() != nil:
+			return exitInterrupted
+		case w == nil:
+			return exitBadInput // refused by the orthonormalisation
 		}
-		return 2
-	}
-	span := inputSpan(ctx, b, w)
-	showProgress := !c.quiet && (!c.asJSON || c.progress)
-	start := time.Now()
-	members := []rankone.Searcher{
-		rankone.Flattening{},
-		&rankone.MultiStart{Method: &rankone.TrustRegion{}, Starts: c.starts, Seed: c.seed, Workers: 1},
-		&rankone.MultiStart{Method: &rankone.ALS{}, Starts: c.starts, Seed: c.seed + 1, Workers: 1},
-		&rankone.MultiStart{Method: &rankone.Power{}, Starts: c.starts, Seed: c.seed + 2, Workers: 1},
-	}
-	// Branch-and-bound proves the global optimum when the smaller side is
-	// small; its bounds are valid whenever the budget stops it, so it joins
-	// whenever its cells stay cheap (see the README for the measurements).
-	if min(w.Rows(), w.Cols()) <= maxBranchBoundSide {
-		members = append(members, &net.BranchBound{Gap: c.gap})
-	}
-	// The level-one sum-of-squares bound joins when its SDP is small
-	// (measured: m·n = 64 solves in about 2 s, m·n = 100 in about 17 s).
-	if w.Rows()*w.Cols() <= maxSOSSize {
-		members = append(members, &sos.Bound{})
-	}
-	p := &rankone.Portfolio{Budget: c.budget, Members: members}
-	printed := false
-	if showProgress {
-		p.Progress = func(pr rankone.Progress) {
-			if time.Since(start) < time.Second {
-				return
-			}
-			fmt.Fprintf(stderr, "\r%6.1fs  distance in [%s, %s]   ", time.Since(start).Seconds(), down(pr.Lower, 6), up(pr.Upper, 6))
-			printed = true
-		}
-	}
-	res, entries, err := p.SearchEach(ctx, w)
-	if printed {
-		fmt.Fprintln(stderr)
-	}
-	if err != nil && !errors.Is(err, context.Canceled) {
-		fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
-		return 1
+		return exitInternal
 	}
 	if c.asJSON {
-		return writeJSON(stdout, stderr, w, res, entries, source, span)
+		if err := writeJSON(stdout, w, rep, source); err != nil {
+			fmt.Fprintf(stderr, "certify: %v\n", err)
+			return exitInternal
+		}
+	} else {
+		writeText(stdout, w, rep, source)
 	}
-	writeText(stdout, w, res, entries, source, span)
-	return 0
-}
-
-// spanInfo says how the certified interval, proven for the stored basis,
-// carries over to the span of the matrices as given.
-type spanInfo struct {
-	theta float64 // proven ‖P_V − P_W‖₂ (valid when ok)
-	ok    bool
-	note  string // why it holds for the stored basis only, when !ok
-}
-
-// inputSpan proves the distance between the input's span and the stored
-// subspace (subspace.InputDistance) or says why it cannot.
-func inputSpan(ctx context.Context, b subspace.Basis, w *subspace.Subspace) spanInfo {
-	th, err := subspace.InputDistance(ctx, b, w)
-	switch {
-	case err == nil:
-		return spanInfo{theta: th, ok: true}
-	case errors.Is(err, subspace.ErrDependent):
-		kept, left := w.RankGap()
-		return spanInfo{note: fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
-			w.Dim(), w.Tol(), kept, left)}
-	default:
-		return spanInfo{note: "not proven (" + oneLine(err) + "): the interval holds for the stored basis only"}
+	switch rep.Stop {
+	case segre.GapReached:
+		return exitCertified
+	case segre.BudgetSpent:
+		return exitBudget
+	case segre.NothingMore:
+		return exitNothingMore
 	}
+	return exitInterrupted
 }
 
-// widen returns [lo − θ, up + θ] rounded outward, within [0, 1].
-func (s spanInfo) widen(lo, up float64) (float64, float64) {
-	l := accurate.Down(lo - s.theta)
-	return math.Max(l, 0), math.Min(1, accurate.Up(up+s.theta))
+// progressLine shows the phases and, while the search runs, the merged
+// certified interval with the latest member's counters, on one line of
+// stderr rewritten in place.
+type progressLine struct {
+	out     io.Writer
+	printed bool
+}
+
+func (p *progressLine) show(g segre.Progress) {
+	switch g.Phase {
+	case segre.Done:
+		return
+	case segre.Searching:
+		if g.Elapsed < time.Second {
+			return
+		}
+	}
+	line := fmt.Sprintf("%6.1fs  %s", g.Elapsed.Seconds(), g.Phase)
+	if g.Phase == segre.Searching {
+		line = fmt.Sprintf("%6.1fs  distance in [%s, %s]", g.Elapsed.Seconds(), down(g.Lower, 6), up(g.Upper, 6))
+		if m := g.Member; m.Searcher != "" {
+			line += "  " + m.Searcher
+			switch {
+			case m.Nodes > 0:
+				line += fmt.Sprintf(": %d cells, %d waiting", m.Nodes, m.Frontier)
+			case m.Starts > 0:
+				line += fmt.Sprintf(": %d starts", m.Starts)
+			case m.Iteration > 0:
+				line += fmt.Sprintf(": iteration %d", m.Iteration)
+			}
+		}
+	}
+	fmt.Fprintf(p.out, "\r%-90s", line)
+	p.printed = true
+}
+
+func (p *progressLine) end() {
+	if p != nil && p.printed {
+		fmt.Fprintln(p.out)
+	}
 }
 
 func oneLine(err error) string {
@@ -231,15 +268,13 @@ type jsonSearcher struct {
 	Lower   number `json:"lower"`
 	Upper   number `json:"upper"`
 	Status  string `json:"status"`
+	Stopped bool   `json:"stopped"`
+	Error   string `json:"error,omitempty"`
 	Seconds number `json:"seconds"`
 }
 
 type jsonOut struct {
 	Source           string         `json:"source"`
-	InputLower       *number        `json:"input_lower"`
-	InputUpper       *number        `json:"input_upper"`
-	InputDistance    *number        `json:"input_distance"`
-	InputNote        string         `json:"input_note,omitempty"`
 	Rows             int            `json:"rows"`
 	Cols             int            `json:"cols"`
 	Inputs           int            `json:"inputs"`
@@ -253,6 +288,10 @@ type jsonOut struct {
 	ValueLower       number         `json:"value_lower"`
 	ValueUpper       number         `json:"value_upper"`
 	Gap              number         `json:"gap"`
+	InputLower       *number        `json:"input_lower"`
+	InputUpper       *number        `json:"input_upper"`
+	InputDistance    *number        `json:"input_distance"`
+	InputNote        string         `json:"input_note,omitempty"`
 	X                []float64      `json:"x"`
 	Y                []float64      `json:"y"`
 	FoundBy          string         `json:"found_by"`
@@ -262,36 +301,34 @@ type jsonOut struct {
 	Searchers        []jsonSearcher `json:"searchers"`
 }
 
-func writeJSON(stdout, stderr io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string, span spanInfo) int {
+func writeJSON(stdout io.Writer, w *subspace.Subspace, rep segre.Report, source string) error {
 	given, _ := w.Inputs()
 	rec, _ := w.BackwardError()
-	vlo, vhi := res.ValueBounds()
 	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: number(w.Tol()),
 		StoresComplement: w.StoresComplement(), Reconstruction: number(rec), Orthogonality: number(w.OrthogonalityBound()),
-		Lower: number(res.Lower), Upper: number(res.Upper), ValueLower: number(vlo), ValueUpper: number(vhi),
-		Gap: number(relGap(vlo, vhi)), X: res.X, Y: res.Y,
-		FoundBy: res.FoundBy, LowerBy: res.LowerBy, Status: res.Status.String(), Seconds: number(res.Elapsed.Seconds())}
-	if span.ok {
-		lo, up := span.widen(res.Lower, res.Upper)
-		l, u, th := number(lo), number(up), number(span.theta)
+		Lower: number(rep.Lower), Upper: number(rep.Upper), ValueLower: number(rep.ValueLower), ValueUpper: number(rep.ValueUpper),
+		Gap: number(rep.Gap), X: rep.X, Y: rep.Y,
+		FoundBy: rep.FoundBy, LowerBy: rep.LowerBy, Status: rep.Stop.String(), Seconds: number(rep.Elapsed.Seconds())}
+	if in := rep.Input; in != nil && in.Proven {
+		l, u, th := number(in.Lower), number(in.Upper), number(in.Distance)
 		out.InputLower, out.InputUpper, out.InputDistance = &l, &u, &th
-	} else {
-		out.InputNote = span.note
+	} else if in != nil {
+		out.InputNote = in.Note
 	}
-	for _, e := range entries {
-		out.Searchers = append(out.Searchers, jsonSearcher{Name: e.Name, Lower: number(e.Result.Lower), Upper: number(e.Result.Upper),
-			Status: e.Result.Status.String(), Seconds: number(e.Result.Elapsed.Seconds())})
+	for _, m := range rep.Members {
+		js := jsonSearcher{Name: m.Name, Lower: number(m.Result.Lower), Upper: number(m.Result.Upper),
+			Status: m.Result.Status.String(), Stopped: m.Stopped, Seconds: number(m.Result.Elapsed.Seconds())}
+		if m.Err != nil {
+			js.Error = oneLine(m.Err)
+		}
+		out.Searchers = append(out.Searchers, js)
 	}
 	enc := json.NewEncoder(stdout)
 	enc.SetIndent("", "  ")
-	if err := enc.Encode(out); err != nil {
-		fmt.Fprintf(stderr, "certify: %v\n", err)
-		return 1
-	}
-	return 0
+	return enc.Encode(out)
 }
 
-func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries []rankone.Entry, source string, span spanInfo) {
+func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source string) {
 	given, zeros := w.Inputs()
 	rec, orth := w.BackwardError()
 	stored := "W"
@@ -305,38 +342,40 @@ func writeText(out io.Writer, w *subspace.Subspace, res rankone.Result, entries 
 	}
 	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.Dim(), w.Tol(), stored)
 	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
-	vlo, vhi := res.ValueBounds()
-	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(res.Lower, 10), up(res.Upper, 10))
-	if span.ok {
-		lo, hi := span.widen(res.Lower, res.Upper)
+	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(rep.Lower, 10), up(rep.Upper, 10))
+	if in := rep.Input; in != nil && in.Proven {
 		fmt.Fprintf(out, "input span d* in [%s, %s]   (certified for the span of the matrices as given: the stored basis is within %s of it)\n",
-			down(lo, 10), up(hi, 10), up(span.theta, 2))
-	} else {
-		fmt.Fprintf(out, "input span %s\n", span.note)
+			down(in.Lower, 10), up(in.Upper, 10), up(in.Distance, 2))
+	} else if in != nil {
+		fmt.Fprintf(out, "input span %s\n", in.Note)
 	}
-	fmt.Fprintf(out, "value      h* in [%s, %s]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %s\n", down(vlo, 10), up(vhi, 10), up(relGap(vlo, vhi), 2))
-	fmt.Fprintf(out, "witness    x = %s\n", vecString(res.X))
-	fmt.Fprintf(out, "           y = %s\n", vecString(res.Y))
-	fmt.Fprintf(out, "found by   %s\n", res.FoundBy)
-	lb := res.LowerBy
+	fmt.Fprintf(out, "value      h* in [%s, %s]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %s\n",
+		down(rep.ValueLower, 10), up(rep.ValueUpper, 10), up(rep.Gap, 2))
+	fmt.Fprintf(out, "witness    x = %s\n", vecString(rep.X))
+	fmt.Fprintf(out, "           y = %s\n", vecString(rep.Y))
+	fmt.Fprintf(out, "found by   %s\n", rep.FoundBy)
+	lb := rep.LowerBy
 	if lb == "" {
 		lb = "nothing (no strategy proved d* > 0)"
 	}
 	fmt.Fprintf(out, "lower by   %s\n", lb)
-	fmt.Fprintf(out, "status     %s after %.3gs\n", res.Status, res.Elapsed.Seconds())
-	fmt.Fprintf(out, "\n%-28s %14s %14s %14s %9s\n", "strategy", "lower", "upper", "status", "seconds")
-	for _, e := range entries {
-		fmt.Fprintf(out, "%-28s %14s %14s %14s %9.3f\n", e.Name, down(e.Result.Lower, 8), up(e.Result.Upper, 8), e.Result.Status, e.Result.Elapsed.Seconds())
+	fmt.Fprintf(out, "stopped    %s after %.3gs\n", rep.Stop, rep.Elapsed.Seconds())
+	fmt.Fprintf(out, "\n%-28s %14s %14s %16s %9s\n", "strategy", "lower", "upper", "status", "seconds")
+	for _, m := range rep.Members {
+		st := m.Result.Status.String()
+		switch {
+		case m.Err != nil:
+			st = "failed"
+		case m.Stopped:
+			st = "stopped at gap"
+		}
+		fmt.Fprintf(out, "%-28s %14s %14s %16s %9.3f\n", m.Name, down(m.Result.Lower, 8), up(m.Result.Upper, 8), st, m.Result.Elapsed.Seconds())
 	}
-}
-
-// relGap is an upper bound on (hi − lo)/hi, the certified relative gap on
-// h* (each operation rounded upwards).
-func relGap(lo, hi float64) float64 {
-	if hi <= 0 {
-		return 0
+	for _, m := range rep.Members {
+		if m.Err != nil {
+			fmt.Fprintf(out, "%s failed: %s\n", m.Name, oneLine(m.Err))
+		}
 	}
-	return accurate.Up(accurate.Up(hi-lo) / hi)
 }
 
 // down and up print a certified lower or upper end with the given number of
@@ -364,3 +403,4 @@ func vecString(v []float64) string {
 	b.WriteString("]")
 	return b.String()
 }
+

@@ -1,0 +1,303 @@
+package segre
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"sync"
+	"time"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/net"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/sos"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// maxBranchBoundSide is the largest min(m, n) for which branch-and-bound
+// joins (measured on this project's 2-core machine, Gaussian subspaces of
+// dimension mn/2, gap 1e-6: min side 3 with max side 32 takes 0.6 s, min
+// side 4 with max side 64 about 40 s; each further dimension multiplies
+// the cells by far more, so at 5 it runs until the budget and reports the
+// Lower it has proved by then).
+const maxBranchBoundSide = 5
+
+// maxSOSSize is the largest m·n for which the level-one relaxation joins
+// (measured: m·n = 64 solves in about 2 s, m·n = 100 in about 15 s).
+const maxSOSSize = 64
+
+// Plan returns the members Certify runs on w with these options, in the
+// order their outcomes are reported: the flattening bound, the three local
+// methods from Options.Starts starts each, branch-and-bound when
+// min(m, n) ≤ 5, and the level-one sum-of-squares relaxation when
+// m·n ≤ 64 (thresholds measured; see the README).
+func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
+	if opt.Members != nil {
+		return opt.Members
+	}
+	st, seed := opt.starts(), opt.Seed
+	members := []rankone.Searcher{
+		rankone.Flattening{},
+		&rankone.MultiStart{Method: &rankone.TrustRegion{}, Starts: st, Seed: seed, Workers: 1},
+		&rankone.MultiStart{Method: &rankone.ALS{}, Starts: st, Seed: seed + 1, Workers: 1},
+		&rankone.MultiStart{Method: &rankone.Power{}, Starts: st, Seed: seed + 2, Workers: 1},
+	}
+	if min(w.Rows(), w.Cols()) <= maxBranchBoundSide {
+		members = append(members, &net.BranchBound{Gap: opt.gap()})
+	}
+	if w.Rows()*w.Cols() <= maxSOSSize {
+		members = append(members, &sos.Bound{})
+	}
+	return members
+}
+
+// hooked sets a member's progress callback when it has one of the known
+// kinds (members given in Options.Members keep theirs if already set).
+func hooked(s rankone.Searcher, fn func(rankone.Progress)) {
+	switch m := s.(type) {
+	case *rankone.MultiStart:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
+	case *net.BranchBound:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
+	case *net.Exhaustive:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
+	case *sos.Bound:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
+	}
+}
+
+// Certify returns a certified interval on d* for the subspace w (see the
+// package doc). It returns an error only for invalid options or when the
+// caller's context ends the search (then with the best valid bounds so far
+// and Stop = Cancelled); a member that fails is reported in Members and
+// contributes nothing.
+func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, error) {
+	if err := opt.check(); err != nil {
+		return Report{}, err
+	}
+	begin := time.Now()
+	members := Plan(w, opt)
+	rctx, cancelBudget := context.WithTimeout(ctx, opt.budget())
+	defer cancelBudget()
+	sctx, stopMembers := context.WithCancel(rctx)
+	defer stopMembers()
+
+	m := &merger{gap: opt.gap(), lower: 0, upper: 1, progress: opt.Progress, begin: begin, stop: stopMembers}
+	m.report(Progress{Phase: Searching}, true)
+	outs := make([]Member, len(members))
+	var wg sync.WaitGroup
+	for i, s := range members {
+		hooked(s, func(p rankone.Progress) { m.member(p) })
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			r, err := s.Search(sctx, w)
+			outs[i] = Member{Name: rankone.NameOf(s), Result: r, Err: err}
+			if err == nil || isContextErr(err) {
+				m.final(r)
+			}
+		}()
+	}
+	wg.Wait()
+
+	rep := Report{Upper: 1, Members: outs, Elapsed: time.Since(begin)}
+	found := false
+	for i := range outs {
+		o := &outs[i]
+		if o.Err != nil && !isContextErr(o.Err) {
+			continue // failed: contributes nothing
+		}
+		if o.Err != nil && ctx.Err() == nil {
+			// Stopped by Certify itself (gap reached or budget spent):
+			// the result is valid, the error is ours, not the member's.
+			o.Stopped = m.met
+			o.Err = nil
+			if !m.met && o.Result.Status == rankone.Cancelled {
+				o.Result.Status = rankone.LimitReached // the budget ran out
+			}
+		}
+		r := o.Result
+		if r.X != nil && (!found || r.Upper < rep.Upper) {
+			found = true
+			rep.X, rep.Y, rep.Upper = r.X, r.Y, r.Upper
+			rep.FoundBy = o.Name
+			if r.FoundBy != "" {
+				rep.FoundBy = r.FoundBy
+			}
+		}
+		if r.Lower > rep.Lower {
+			rep.Lower, rep.LowerBy = r.Lower, r.LowerBy
+		}
+	}
+	if !found {
+		rep.X, rep.Y, rep.Upper = rankone.TrivialWitness(w)
+		rep.FoundBy = "trivial witness"
+	}
+	rep.ValueLower, rep.ValueUpper = rankone.Result{Lower: rep.Lower, Upper: rep.Upper}.ValueBounds()
+	rep.Gap = relGapUpper(rep.ValueLower, rep.ValueUpper)
+	switch {
+	case rep.Gap <= opt.gap():
+		rep.Stop = GapReached
+	case ctx.Err() != nil:
+		rep.Stop = Cancelled
+	case rctx.Err() != nil:
+		rep.Stop = BudgetSpent
+	default:
+		rep.Stop = NothingMore
+	}
+	m.mu.Lock()
+	m.lower, m.upper = rep.Lower, rep.Upper
+	m.mu.Unlock()
+	m.report(Progress{Phase: Done}, true)
+	if rep.Stop == Cancelled {
+		return rep, ctx.Err()
+	}
+	return rep, nil
+}
+
+func isContextErr(err error) bool {
+	return errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)
+}
+
+// relGapUpper returns an upper bound on (hi − lo)/hi (0 when hi ≤ 0).
+func relGapUpper(lo, hi float64) float64 {
+	if hi <= 0 {
+		return 0
+	}
+	return accurate.Up(accurate.Up(hi-lo) / hi)
+}
+
+// merger keeps the merged certified interval while members run, reports
+// it, and stops the members when it meets the gap.
+type merger struct {
+	mu           sync.Mutex
+	gap          float64
+	lower, upper float64
+	met          bool
+	progress     func(Progress)
+	begin, last  time.Time
+	stop         context.CancelFunc
+}
+
+// member takes a member's progress report. rankone.Progress carries
+// certified bounds by contract (Upper ≥ d at the member's witness, Lower
+// proven), so they may tighten the merged interval.
+func (m *merger) member(p rankone.Progress) {
+	m.mu.Lock()
+	m.tighten(p.Lower, p.Upper)
+	m.mu.Unlock()
+	m.report(Progress{Phase: Searching, Member: p}, false)
+}
+
+// final takes a member's finished Result (only from a member that did not
+// fail).
+func (m *merger) final(r rankone.Result) {
+	m.mu.Lock()
+	up := r.Upper
+	if r.X == nil {
+		up = 1
+	}
+	m.tighten(r.Lower, up)
+	m.mu.Unlock()
+	m.report(Progress{Phase: Searching}, false)
+}
+
+// tighten merges bounds; m.mu must be held.
+func (m *merger) tighten(lo, up float64) {
+	if up < m.upper {
+		m.upper = up
+	}
+	m.lower = math.Max(m.lower, lo)
+	hlo, hhi := rankone.Result{Lower: m.lower, Upper: m.upper}.ValueBounds()
+	if !m.met && relGapUpper(hlo, hhi) <= m.gap {
+		m.met = true
+		m.stop()
+	}
+}
+
+// report calls the progress callback, throttled to one call every 200 ms
+// unless force is set.
+func (m *merger) report(p Progress, force bool) {
+	if m.progress == nil {
+		return
+	}
+	m.mu.Lock()
+	now := time.Now()
+	if !force && now.Sub(m.last) < 200*time.Millisecond {
+		m.mu.Unlock()
+		return
+	}
+	m.last = now
+	p.Lower, p.Upper, p.Elapsed = m.lower, m.upper, now.Sub(m.begin)
+	m.mu.Unlock()
+	m.progress(p)
+}
+
+// CertifyBasis orthonormalises the matrices of b (with Options.Subspace),
+// proves how far the stored basis is from their span, and certifies as
+// Certify does; Report.Input gives the interval for the span of b as given.
+// b is not modified. Errors from the orthonormalisation (bad input) are
+// returned as they are (see package subspace for the sentinels).
+func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace.Subspace, Report, error) {
+	if err := opt.check(); err != nil {
+		return nil, Report{}, err
+	}
+	begin := time.Now()
+	phase := func(p Phase) {
+		if opt.Progress != nil {
+			opt.Progress(Progress{Phase: p, Upper: 1, Elapsed: time.Since(begin)})
+		}
+	}
+	phase(Orthonormalising)
+	w, err := subspace.NewContext(ctx, b, opt.Subspace)
+	if err != nil {
+		return nil, Report{}, err
+	}
+	phase(ProvingInputSpan)
+	th, terr := subspace.InputDistance(ctx, b, w)
+	if ctx.Err() != nil {
+		return w, Report{Upper: 1, Stop: Cancelled}, ctx.Err()
+	}
+	rep, err := Certify(ctx, w, opt)
+	in := &InputSpan{}
+	switch {
+	case terr == nil:
+		in.Proven, in.Distance = true, th
+		in.Lower = math.Max(0, accurate.Down(rep.Lower-th))
+		in.Upper = math.Min(1, accurate.Up(rep.Upper+th))
+	case errors.Is(terr, subspace.ErrDependent):
+		kept, left := w.RankGap()
+		in.Note = fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
+			w.Dim(), w.Tol(), kept, left)
+	default:
+		in.Note = "not proven (" + terr.Error() + "): the interval holds for the stored basis only"
+	}
+	rep.Input = in
+	return w, rep, err
+}
+
+// CertifyFile reads a basis from a .npy or text file (subspace.ReadFile,
+// within Options.Subspace.MaxBytes) and certifies it as CertifyBasis does.
+// The file is not modified.
+func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subspace, Report, error) {
+	if err := opt.check(); err != nil {
+		return nil, Report{}, err
+	}
+	if opt.Progress != nil {
+		opt.Progress(Progress{Phase: Reading, Upper: 1})
+	}
+	b, err := subspace.ReadFile(path, opt.Subspace.MaxBytes)
+	if err != nil {
+		return nil, Report{}, err
+	}
+	return CertifyBasis(ctx, b, opt)
+}
