@@ -36,6 +36,7 @@ const oneMatrixWork = 1 << 26
 //   - σᵢ(F) ≥ σᵢ(U diag(s)) − ‖F − U diag(s)‖_F ≥ √(1 − ηU)·sᵢ − 2u‖F‖_F
 //     (Weyl again, min–max for U of full column rank, and
 //     |F − U diag(s)| ≤ u/(1−u)·|F| entrywise).
+//
 // So σᵢ(A) ≥ ℓᵢ := √(1−ηV)(√(1−ηU)·sᵢ − 2u‖F‖_F) − δ, and
 // d*² ≥ Σ_{i≥2} max(ℓᵢ, 0)² / ‖A‖_F². Each ingredient is proven with
 // directed rounding: ηU, ηV and δ from compensated dot products

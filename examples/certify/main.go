@@ -403,4 +403,3 @@ func vecString(v []float64) string {
 	b.WriteString("]")
 	return b.String()
 }
-
