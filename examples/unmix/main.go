@@ -24,7 +24,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
-	"github.com/segre-lab/segre/cpd"
+	"github.com/segre-lab/segre/rankone/cpd"
 )
 
 func main() {
