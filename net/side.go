@@ -16,7 +16,7 @@ type side struct {
 	w     *subspace.Subspace
 	onX   bool // the net is over x ∈ S^{m−1}, y solved exactly
 	d, p  int  // dimensions of the net side and of the exact side
-	form  *subspace.BlockForm
+	form  *BlockForm
 	evals int
 }
 
@@ -28,8 +28,8 @@ func newSide(w *subspace.Subspace) side {
 	if w.Rows() > w.Cols() {
 		s = side{w: w, onX: false, d: w.Cols(), p: w.Rows()}
 	}
-	if f := w.BlockFormBytes(s.onX); f <= blockFormLimit && f <= w.MemoryLimit()/2 {
-		s.form = w.NewBlockForm(s.onX)
+	if f := BlockFormBytes(w, s.onX); f <= blockFormLimit && f <= w.MemoryLimit()/2 {
+		s.form = NewBlockForm(w, s.onX)
 	}
 	return s
 }
@@ -43,9 +43,9 @@ func (s *side) value(c, vec []float64) (est, upper float64) {
 	if s.form != nil {
 		e, u = s.form.MaxEig(c, vec)
 	} else if s.onX {
-		e, u = s.w.MaxEigH(c, vec)
+		e, u = MaxEigH(s.w, c, vec)
 	} else {
-		e, u = s.w.MaxEigG(c, vec)
+		e, u = MaxEigG(s.w, c, vec)
 	}
 	cc := accurate.SumSqLower(c)
 	var ccEst float64

@@ -3,9 +3,9 @@ package rankone_test
 import (
 	"context"
 	"fmt"
-	"github.com/segre-lab/segre/rankone"
 	"testing"
 
+	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
 )

@@ -36,7 +36,7 @@ func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
 // done first it returns whatever it has proven (at worst hUpper = 1,
 // lower = 0), within one block of 16 rows of a Cholesky test.
 func FlatteningBoundContext(ctx context.Context, w *subspace.Subspace) (hUpper, lower float64) {
-	h1, h2 := w.FlatteningBounds(ctx)
+	h1, h2 := FlatteningBounds(ctx, w)
 	hUpper = math.Min(1, math.Min(h1, h2))
 	if hUpper < 0 {
 		hUpper = 0

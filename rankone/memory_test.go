@@ -26,7 +26,7 @@ func TestMemoryLimitRespected(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if w.TraceFits(200000) || !w.TraceFits(2) {
+		if rankone.TraceFits(w, 200000) || !rankone.TraceFits(w, 2) {
 			t.Fatalf("limit %d: TraceFits wrong", w.MemoryLimit())
 		}
 		var before, after runtime.MemStats

@@ -3,11 +3,12 @@ package rankone_test
 import (
 	"context"
 	"errors"
-	"github.com/segre-lab/segre/rankone"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/segre-lab/segre/rankone"
 
 	"gonum.org/v1/gonum/mat"
 

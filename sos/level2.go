@@ -67,7 +67,7 @@ func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
 			e.pq = append(e.pq, [2]int{p, q})
 		}
 	}
-	ph, delta := w.ProjectorBound()
+	ph, delta := ProjectorBound(w)
 	e.delta = delta
 	// terms(pq) lists the (a, b) with b_pq = Σ e_a⊗e_b.
 	terms := func(t [2]int) [][2]int {
@@ -336,7 +336,7 @@ func EigenBound(w *subspace.Subspace) (float64, error) {
 // EigenBoundContext is EigenBound under a context: if ctx is done first it
 // returns 1 (the trivial bound) and ctx.Err().
 func EigenBoundContext(ctx context.Context, w *subspace.Subspace) (float64, error) {
-	if ub, ok := w.ExtensionBoundContext(ctx, 4096); ok {
+	if ub, ok := ExtensionBound(ctx, w, 4096); ok {
 		return math.Min(ub, 1), nil
 	}
 	if err := ctx.Err(); err != nil {

@@ -93,7 +93,7 @@ func TestLevelTwoConformance(t *testing.T) {
 func TestEigenBoundTwoRoutes(t *testing.T) {
 	for _, in := range []suite.Instance{suite.Random(3, 4, 3, 1), suite.Random(4, 3, 5, 2), suite.OneMatrix(4, 4, 3), suite.Antisymmetric(4)} {
 		w := mustNew(t, in)
-		g, ok := w.ExtensionBound(4096)
+		g, ok := ExtensionBound(context.Background(), w, 4096)
 		if !ok {
 			t.Fatalf("%s: Gram route unavailable", in.Name)
 		}

@@ -82,7 +82,7 @@ func Verify(w *subspace.Subspace, c Certificate) (float64, error) {
 			}
 		}
 	}
-	p, delta := w.ProjectorBound()
+	p, delta := ProjectorBound(w)
 	sum := mat.NewSymDense(L, nil)
 	var fro float64
 	for a := 0; a < L; a++ {
@@ -124,7 +124,7 @@ func LevelOne(w *subspace.Subspace) (*Relaxation, error) {
 	if L > 120 {
 		return nil, fmt.Errorf("%w: m·n = %d (the dense solver handles m·n ≤ 120)", ErrTooLarge, L)
 	}
-	p, _ := w.ProjectorBound()
+	p, _ := ProjectorBound(w)
 	r := &Relaxation{m: m, n: n}
 	for a := 0; a < L; a++ {
 		for b := a; b < L; b++ {

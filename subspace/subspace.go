@@ -27,13 +27,12 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sync"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
-	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/tiled"
 )
 
 // Errors for bad user data, usable with errors.Is.
@@ -97,15 +96,6 @@ type Subspace struct {
 	sumSq         float64 // proven upper bound on ‖S‖_F² (accurate.SumSqUpper of the stored rows)
 	rankKept      float64 // |R_kk| of the last pivot kept by the rank decision
 	rankLeft      float64 // norm of the first column left out (0 when none)
-
-	ptMu    [2]sync.Mutex // the partial traces, each side computed on first complete use
-	ptDone  [2]bool
-	pt      [2]*mat.SymDense
-	ptDelta [2]float64
-
-	flatMu         sync.Mutex // guards the cached FlatteningBounds
-	flatDone       bool
-	flatH1, flatH2 float64
 }
 
 // MemoryLimit returns the working-storage limit in bytes given to New
@@ -516,7 +506,7 @@ func orthogonality(q []float64, s, L int, sf float64, stop func() bool) (compute
 		return 0, 0
 	}
 	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
-	if !gramTiles(blas.NoTrans, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, g, stop) {
+	if !tiled.Gram(blas.NoTrans, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, g, stop) {
 		return math.Inf(1), math.Inf(1)
 	}
 	var ss float64

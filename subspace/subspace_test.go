@@ -9,59 +9,26 @@ import (
 
 	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/reference"
 )
 
 func randBasis(rng *rand.Rand, r, m, n int) Basis {
-	d := make([]float64, r*m*n)
-	for i := range d {
-		d[i] = rng.NormFloat64()
-	}
-	return Basis{Count: r, Rows: m, Cols: n, Data: d}
+	return Basis{Count: r, Rows: m, Cols: n, Data: reference.RandMatrices(rng, r, m, n)}
 }
 
-// refProjector computes P_W with gonum's SVD of the mn×r matrix [vec B_t],
-// keeping singular values above 1e-10·σ₁: the reference for every
-// contraction below (a general-purpose reference library).
+// refProjector computes P_W with gonum's SVD (reference.Projector): the
+// reference for every contraction below (a general-purpose reference
+// library).
 func refProjector(t *testing.T, b Basis) (*mat.Dense, int) {
-	L := b.Rows * b.Cols
-	a := mat.NewDense(L, b.Count, nil)
-	for c := 0; c < b.Count; c++ {
-		for l := 0; l < L; l++ {
-			a.Set(l, c, b.Data[c*L+l])
-		}
-	}
-	var svd mat.SVD
-	if !svd.Factorize(a, mat.SVDThin) {
+	p, k, ok := reference.Projector(b.Data, b.Count, b.Rows, b.Cols)
+	if !ok {
 		t.Fatal("gonum SVD failed")
 	}
-	s := svd.Values(nil)
-	var u mat.Dense
-	svd.UTo(&u)
-	k := 0
-	for _, v := range s {
-		if v > 1e-10*s[0] {
-			k++
-		}
-	}
-	uk := u.Slice(0, L, 0, k)
-	var p mat.Dense
-	p.Mul(uk, uk.T())
-	return &p, k
+	return p, k
 }
 
-func randUnit(rng *rand.Rand, n int) []float64 {
-	v := make([]float64, n)
-	var s float64
-	for i := range v {
-		v[i] = rng.NormFloat64()
-		s += v[i] * v[i]
-	}
-	s = math.Sqrt(s)
-	for i := range v {
-		v[i] /= s
-	}
-	return v
-}
+var randUnit = reference.RandUnit
 
 func kronVec(x, y []float64) *mat.VecDense {
 	v := make([]float64, len(x)*len(y))
@@ -176,33 +143,6 @@ func TestContractionsAgainstGonum(t *testing.T) {
 					}
 				}
 			}
-			// Partial traces: Tr₂(P)_ab = Σ_j P[(a,j),(b,j)] from gonum's P.
-			t1, d1, t2, d2 := w.PartialTraces()
-			for a := 0; a < c.m; a++ {
-				for bb := 0; bb < c.m; bb++ {
-					var s float64
-					for j := 0; j < c.n; j++ {
-						s += p.At(a*c.n+j, bb*c.n+j)
-					}
-					if !scalar.EqualWithinAbs(t1.At(a, bb), s, 1e-12) {
-						t.Errorf("T1[%d,%d] = %v, want %v", a, bb, t1.At(a, bb), s)
-					}
-				}
-			}
-			for cc := 0; cc < c.n; cc++ {
-				for dd := 0; dd < c.n; dd++ {
-					var s float64
-					for i := 0; i < c.m; i++ {
-						s += p.At(i*c.n+cc, i*c.n+dd)
-					}
-					if !scalar.EqualWithinAbs(t2.At(cc, dd), s, 1e-12) {
-						t.Errorf("T2[%d,%d] = %v, want %v", cc, dd, t2.At(cc, dd), s)
-					}
-				}
-			}
-			if !(d1 >= 0 && d1 < 1e-12 && d2 >= 0 && d2 < 1e-12) {
-				t.Errorf("partial trace slack %g, %g", d1, d2)
-			}
 			// Project agrees with gonum's P on a random full matrix.
 			a := randUnit(rng, c.m*c.n)
 			pa := make([]float64, len(a))
@@ -248,7 +188,7 @@ func TestDependentAndZeroInputs(t *testing.T) {
 }
 
 // A Subspace is safe for concurrent use: many goroutines call every
-// contraction (and the lazily computed partial traces) at once and get the
+// contraction at once and get the
 // same answers as a serial run (run under -race in CI).
 func TestConcurrentUse(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
@@ -263,7 +203,6 @@ func TestConcurrentUse(t *testing.T) {
 		go func() {
 			var s mat.SymDense
 			w.G(&s, y)
-			w.PartialTraces()
 			w.ResidualBound(x, y)
 			done <- w.Value(x, y)
 		}()
@@ -271,89 +210,6 @@ func TestConcurrentUse(t *testing.T) {
 	for g := 0; g < 8; g++ {
 		if v := <-done; v != want {
 			t.Errorf("concurrent Value %v, serial %v", v, want)
-		}
-	}
-}
-
-// MaxEigH/MaxEigG: the estimate matches gonum's EigenSym of the explicit
-// H(x), G(y) (reference library), and the proven bound lies above it by no
-// more than rounding-level slack, for both storages and unnormalised input.
-func TestMaxEigBounds(t *testing.T) {
-	rng := rand.New(rand.NewPCG(11, 12))
-	for _, c := range []struct{ r, m, n int }{{3, 3, 5}, {12, 3, 5}, {2, 6, 2}, {9, 4, 3}, {15, 3, 5}} {
-		w, err := New(randBasis(rng, c.r, c.m, c.n), Options{})
-		if err != nil {
-			t.Fatal(err)
-		}
-		for trial := 0; trial < 4; trial++ {
-			x, y := randUnit(rng, c.m), randUnit(rng, c.n)
-			for i := range x {
-				x[i] *= 1.5
-			}
-			var h, g mat.SymDense
-			w.H(&h, x)
-			w.G(&g, y)
-			for _, tc := range []struct {
-				name string
-				a    *mat.SymDense
-				f    func(v []float64) (float64, float64)
-				p    int
-			}{
-				{"H", &h, func(v []float64) (float64, float64) { return w.MaxEigH(x, v) }, c.n},
-				{"G", &g, func(v []float64) (float64, float64) { return w.MaxEigG(y, v) }, c.m},
-			} {
-				var es mat.EigenSym
-				es.Factorize(tc.a, false)
-				vals := es.Values(nil)
-				ref := vals[len(vals)-1]
-				vec := make([]float64, tc.p)
-				est, up := tc.f(vec)
-				if math.Abs(est-ref) > 1e-12 {
-					t.Errorf("%v %s: estimate %v, gonum %v", c, tc.name, est, ref)
-				}
-				// The bound's slack is γ-sized (derived on MaxEigH): 1e-12 covers these sizes.
-				if up < ref-1e-15 || up > ref+1e-12 {
-					t.Errorf("%v %s (complement %v): bound %v, gonum %v", c, tc.name, w.comp, up, ref)
-				}
-			}
-		}
-	}
-}
-
-// BlockForm.MaxEig agrees with MaxEigH/MaxEigG (tested against gonum above)
-// on both storages and both sides: same estimate, bound above the gonum
-// value by rounding-level slack only.
-func TestBlockForm(t *testing.T) {
-	rng := rand.New(rand.NewPCG(13, 14))
-	for _, c := range []struct{ r, m, n int }{{3, 3, 5}, {12, 3, 5}, {5, 4, 3}, {10, 4, 3}} {
-		w, err := New(randBasis(rng, c.r, c.m, c.n), Options{})
-		if err != nil {
-			t.Fatal(err)
-		}
-		for _, onX := range []bool{true, false} {
-			f := w.NewBlockForm(onX)
-			d, p := c.m, c.n
-			if !onX {
-				d, p = c.n, c.m
-			}
-			for trial := 0; trial < 4; trial++ {
-				u := randUnit(rng, d)
-				u[0] *= 1.3
-				var a mat.SymDense
-				if onX {
-					w.H(&a, u)
-				} else {
-					w.G(&a, u)
-				}
-				var es mat.EigenSym
-				es.Factorize(&a, false)
-				vals := es.Values(nil)
-				ref := vals[len(vals)-1]
-				est, up := f.MaxEig(u, make([]float64, p))
-				if math.Abs(est-ref) > 1e-12 || up < ref-1e-15 || up > ref+1e-12 {
-					t.Errorf("%v onX=%v complement=%v: est %v bound %v, gonum %v", c, onX, w.comp, est, up, ref)
-				}
-			}
 		}
 	}
 }

@@ -1,5 +1,7 @@
 package subspace
 
+import "github.com/segre-lab/segre/internal/rawstore"
+
 // Stored is a read-only view of what a Subspace stores, for bound builders
 // outside this package (ours and users') that do their own proofs: the
 // stored vectors S (rows of length m·n, row-major matrices), whether they
@@ -40,3 +42,12 @@ func (s Stored) OrthogonalityBound() float64 { return s.w.eta }
 // SumSqUpper returns a proven upper bound on ‖S‖_F², the sum of squares of
 // every stored entry.
 func (s Stored) SumSqUpper() float64 { return s.w.sumSq }
+
+func init() {
+	rawstore.Register(
+		func(w any) []float64 { return w.(*Subspace).q },
+		func(op any) rawstore.Factor {
+			o := op.(*Operator)
+			return rawstore.Factor{Z: o.z, S: o.s, P: o.p, Complement: o.comp, Shift: o.shift}
+		})
+}

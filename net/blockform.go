@@ -1,7 +1,8 @@
-package subspace
+package net
 
 import (
 	"math"
+	"strconv"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -9,7 +10,9 @@ import (
 
 	"github.com/segre-lab/segre/internal/accurate"
 	"github.com/segre-lab/segre/internal/eigen"
+	"github.com/segre-lab/segre/internal/rawstore"
 	"github.com/segre-lab/segre/internal/verified"
+	"github.com/segre-lab/segre/subspace"
 )
 
 // BlockForm holds the exact side's matrix as a quadratic form in the
@@ -18,18 +21,19 @@ import (
 // that evaluating λmax(H(x)) at a new x costs O(d²p²) and no pass over the
 // basis. It is immutable and safe for concurrent use.
 type BlockForm struct {
-	w      *Subspace
-	onX    bool // the form is in x (blocks n×n); otherwise in y (blocks m×m)
+	comp   bool    // the stored vectors span W⊥
+	eta    float64 // the stored basis's proven orthogonality defect
+	onX    bool    // the form is in x (blocks n×n); otherwise in y (blocks m×m)
 	d, p   int
 	blocks []float64 // d×d blocks of p×p: block (a, b) at ((a·d+b)·p·p)
 	errs   []float64 // errs[a·d+b]: proven bound on the block's contribution error
 }
 
 // BlockFormBytes returns the storage a BlockForm for the given side needs.
-func (w *Subspace) BlockFormBytes(onX bool) int64 {
-	d, p := w.n, w.m
+func BlockFormBytes(w *subspace.Subspace, onX bool) int64 {
+	d, p := w.Cols(), w.Rows()
 	if onX {
-		d, p = w.m, w.n
+		d, p = w.Rows(), w.Cols()
 	}
 	return 8 * int64(d) * int64(d) * int64(p) * int64(p)
 }
@@ -39,25 +43,28 @@ func (w *Subspace) BlockFormBytes(onX bool) int64 {
 // S_t, so Z(x)ᵀZ(x) = Σ_ab x_a x_b M_ab exactly; the float blocks err
 // entrywise by at most γ_s Σ_t|R_a,t|ᵀ|R_b,t|, of spectral norm at most
 // γ_s‖R_a‖_F‖R_b‖_F (Cauchy–Schwarz).
-func (w *Subspace) NewBlockForm(onX bool) *BlockForm {
-	d, p := w.n, w.m
+func NewBlockForm(w *subspace.Subspace, onX bool) *BlockForm {
+	st, sq := w.Stored(), rawstore.Vectors(w)
+	n := w.Cols()
+	d, p := n, w.Rows()
 	if onX {
-		d, p = w.m, w.n
+		d, p = w.Rows(), n
 	}
-	f := &BlockForm{w: w, onX: onX, d: d, p: p, blocks: make([]float64, d*d*p*p), errs: make([]float64, d*d)}
-	s, L := w.s, w.m*w.n
+	f := &BlockForm{comp: st.Complement(), eta: st.OrthogonalityBound(), onX: onX, d: d, p: p,
+		blocks: make([]float64, d*d*p*p), errs: make([]float64, d*d)}
+	s, L := st.Count(), w.Rows()*n
 	// rows[a] is the s×p matrix of row (or column) a of every stored matrix.
 	rows := make([][]float64, d)
 	rn := make([]float64, d)
 	for a := 0; a < d; a++ {
 		r := make([]float64, s*p)
 		for t := 0; t < s; t++ {
-			q := w.q[t*L : (t+1)*L]
+			q := sq[t*L : (t+1)*L]
 			for j := 0; j < p; j++ {
 				if onX {
-					r[t*p+j] = q[a*w.n+j]
+					r[t*p+j] = q[a*n+j]
 				} else {
-					r[t*p+j] = q[j*w.n+a]
+					r[t*p+j] = q[j*n+a]
 				}
 			}
 		}
@@ -97,9 +104,8 @@ func (w *Subspace) NewBlockForm(onX bool) *BlockForm {
 func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 	d, p := f.d, f.p
 	if len(c) != d || len(vec) != p {
-		panic("subspace: BlockForm.MaxEig needs vectors of lengths " + itoa(d) + " and " + itoa(p))
+		panic("net: BlockForm.MaxEig needs vectors of lengths " + strconv.Itoa(d) + " and " + strconv.Itoa(p))
 	}
-	w := f.w
 	a := make([]float64, p*p)
 	var delta float64
 	for i := 0; i < d; i++ {
@@ -127,7 +133,7 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 	// matrix-vector product; only the bound needs the exact symmetric form.
 	full := blas64.General{Rows: p, Cols: p, Stride: p, Data: append([]float64(nil), a...)}
 	alpha, shift := 1.0, 0.0
-	if w.comp {
+	if f.comp {
 		alpha, shift = -1, cEst
 	}
 	apply := func(dst, src []float64) {
@@ -144,14 +150,14 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 			return est, math.Inf(1)
 		}
 	}
-	if w.eta >= 0.5 {
+	if f.eta >= 0.5 {
 		return est, math.Inf(1)
 	}
-	if !w.comp {
+	if !f.comp {
 		lam := accurate.AddUp(verified.MaxEigUpper(am, est), delta)
-		return est, accurate.Up(math.Max(lam, 0) / accurate.Down(1-w.eta))
+		return est, accurate.Up(math.Max(lam, 0) / accurate.Down(1-f.eta))
 	}
 	lmin := accurate.Down(verified.MinEigLower(am, cEst-est) - delta)
-	sub := accurate.Down(math.Max(lmin, 0) / accurate.Up(1+w.eta))
+	sub := accurate.Down(math.Max(lmin, 0) / accurate.Up(1+f.eta))
 	return est, math.Max(0, accurate.Up(cc-sub))
 }
