@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"math"
 	"runtime"
-	"sync"
 	"time"
 
 	"github.com/segre-lab/segre/internal/accurate"
@@ -212,7 +211,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	}
 	res.X, res.Y, res.Upper, res.Value = inc.X, inc.Y, inc.Upper, inc.Value
 	res.Evaluations += inc.Evaluations
-	hLow := hFromUpper(res.Upper)
+	hLow := rankone.ValueLower(res.Upper)
 	lam, _ := rankone.FlatteningBoundContext(ctx, w)
 	lam = math.Min(lam, 1)
 	bestEst := res.Value
@@ -222,40 +221,29 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	// the bound lam is valid without it (it bounds h over the parents, which
 	// were popped with keys counted in lam), so a deadline waits for at
 	// most one cell per worker.
+	sides := make([]side, workers)
+	cbuf := make([][]float64, workers)
+	for k := range sides {
+		sides[k] = side{w: w, onX: sd.onX, d: d, p: sd.p, form: sd.form}
+		cbuf[k] = make([]float64, d)
+	}
 	eval := func(cells []*cell, vecs [][]float64) {
-		var wg sync.WaitGroup
-		next := make(chan int)
-		for range min(workers, len(cells)) {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				s := side{w: w, onX: sd.onX, d: d, p: sd.p, form: sd.form}
-				c := make([]float64, d)
-				for i := range next {
-					if ctx.Err() != nil {
-						continue
-					}
-					cl := cells[i]
-					cl.centre(c, d)
-					v := make([]float64, sd.p)
-					for j, a := range cl.vec {
-						v[j] = float64(a)
-					}
-					cl.est, cl.fbar = s.value(c, v)
-					cl.vec = make([]float32, sd.p)
-					for j, a := range v {
-						cl.vec[j] = float32(a)
-					}
-					cl.r = cl.radius()
-					vecs[i] = v
-				}
-			}()
-		}
-		for i := range cells {
-			next <- i
-		}
-		close(next)
-		wg.Wait()
+		rankone.ParallelFor(ctx, len(cells), workers, func(k, i int) {
+			s, c := &sides[k], cbuf[k]
+			cl := cells[i]
+			cl.centre(c, d)
+			v := make([]float64, sd.p)
+			for j, a := range cl.vec {
+				v[j] = float64(a)
+			}
+			cl.est, cl.fbar = s.value(c, v)
+			cl.vec = make([]float32, sd.p)
+			for j, a := range v {
+				cl.vec[j] = float32(a)
+			}
+			cl.r = cl.radius()
+			vecs[i] = v
+		})
 	}
 
 	var front cellHeap
@@ -343,7 +331,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				res.Iterations += st.Iterations
 				if u < res.Upper {
 					res.X, res.Y, res.Upper, res.Value = px, py, u, st.Value
-					hLow = hFromUpper(u)
+					hLow = rankone.ValueLower(u)
 					bestEst = math.Max(bestEst, st.Value)
 				}
 			}
@@ -399,7 +387,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				lam = math.Min(lam, topBound(front, maxPruned))
 			}
 			gate.Report(rankone.Progress{Searcher: b.Name(), Nodes: nodes, Frontier: len(front),
-				Upper: res.Upper, Lower: lowerFromH(lam)})
+				Upper: res.Upper, Lower: rankone.DistanceLower(lam)})
 			if done(lam, hLow, gap, res.Upper, b.AbsGap) {
 				status = rankone.GapReached
 				break
@@ -450,7 +438,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	}
 	res.Status = status
 	res.Evaluations += nodes
-	if lo := lowerFromH(lam); lo > 0 {
+	if lo := rankone.DistanceLower(lam); lo > 0 {
 		res.Lower = lo
 		res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells)", nodes)
 		if why != "" {
@@ -479,5 +467,5 @@ func done(hUp, hLow, gap, upper, absGap float64) bool {
 	if hUp-hLow <= gap*hUp {
 		return true
 	}
-	return absGap > 0 && upper-lowerFromH(hUp) <= absGap
+	return absGap > 0 && upper-rankone.DistanceLower(hUp) <= absGap
 }

@@ -76,50 +76,37 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 		done    bool
 	}
 	parts := make([]part, nchunks)
-	next := make(chan int64)
-	var wg sync.WaitGroup
 	var mu sync.Mutex
 	doneChunks := 0
 	gate := rankone.NewThrottle(e.Progress)
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := side{w: w, onX: sd.onX, d: sd.d, p: sd.p, form: sd.form}
-			g := make([]float64, sd.d)
-			v := make([]float64, sd.p)
-			for ci := range next {
-				pt := part{bestEst: -1}
-				for idx := ci * chunk; idx < min((ci+1)*chunk, total); idx++ {
-					NetPoint(g, sd.d, N, idx)
-					clear(v)
-					est, up := s.value(g, v)
-					pt.maxUp = max(pt.maxUp, up)
-					if est > pt.bestEst {
-						pt.bestEst, pt.bestIdx, pt.bestVec = est, idx, append(pt.bestVec[:0], v...)
-					}
-				}
-				pt.evals = s.evals
-				s.evals = 0
-				pt.done = true
-				parts[ci] = pt
-				mu.Lock()
-				doneChunks++
-				gate.Report(rankone.Progress{Searcher: e.Name(), Nodes: doneChunks * chunk, Frontier: int(total) - doneChunks*chunk, Upper: 1})
-				mu.Unlock()
+	sides := make([]side, workers)
+	gbuf, vbuf := make([][]float64, workers), make([][]float64, workers)
+	for k := range sides {
+		sides[k] = side{w: w, onX: sd.onX, d: sd.d, p: sd.p, form: sd.form}
+		gbuf[k], vbuf[k] = make([]float64, sd.d), make([]float64, sd.p)
+	}
+	rankone.ParallelFor(ctx, int(nchunks), workers, func(k, c int) {
+		s, g, v := &sides[k], gbuf[k], vbuf[k]
+		ci := int64(c)
+		pt := part{bestEst: -1}
+		for idx := ci * chunk; idx < min((ci+1)*chunk, total); idx++ {
+			NetPoint(g, sd.d, N, idx)
+			clear(v)
+			est, up := s.value(g, v)
+			pt.maxUp = max(pt.maxUp, up)
+			if est > pt.bestEst {
+				pt.bestEst, pt.bestIdx, pt.bestVec = est, idx, append(pt.bestVec[:0], v...)
 			}
-		}()
-	}
-feed:
-	for ci := int64(0); ci < nchunks; ci++ {
-		select {
-		case next <- ci:
-		case <-ctx.Done():
-			break feed
 		}
-	}
-	close(next)
-	wg.Wait()
+		pt.evals = s.evals
+		s.evals = 0
+		pt.done = true
+		parts[ci] = pt
+		mu.Lock()
+		doneChunks++
+		gate.Report(rankone.Progress{Searcher: e.Name(), Nodes: doneChunks * int(chunk), Frontier: int(total) - doneChunks*int(chunk), Upper: 1})
+		mu.Unlock()
+	})
 
 	res := rankone.Result{FoundBy: e.Name(), Status: rankone.Converged, Starts: 1}
 	complete := true
@@ -157,7 +144,7 @@ feed:
 		// √h* ≤ √maxUp/(1 − ε), evaluated upwards.
 		r := accurate.Up(accurate.SqrtUp(maxUp) / accurate.Down(1-eps))
 		hUp := min(accurate.MulUp(r, r), 1)
-		if lo := lowerFromH(hUp); lo > 0 {
+		if lo := rankone.DistanceLower(hUp); lo > 0 {
 			res.Lower, res.LowerBy = lo, fmt.Sprintf("net (ε = %.3g, %d points)", eps, total)
 		}
 	}

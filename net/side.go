@@ -72,16 +72,3 @@ func (s *side) witness(c, v []float64) (x, y []float64) {
 	}
 	return vn, cn
 }
-
-// lowerFromH returns the certified lower bound √(1 − hUpper) on d*.
-func lowerFromH(hUpper float64) float64 {
-	if hUpper >= 1 {
-		return 0
-	}
-	return accurate.SqrtDown(accurate.Down(1 - math.Max(hUpper, 0)))
-}
-
-// hFromUpper returns the certified lower bound 1 − Upper² on h*.
-func hFromUpper(upper float64) float64 {
-	return math.Max(0, accurate.Down(1-accurate.MulUp(upper, upper)))
-}

@@ -41,7 +41,7 @@ func FlatteningBoundContext(ctx context.Context, w *subspace.Subspace) (hUpper, 
 	if hUpper < 0 {
 		hUpper = 0
 	}
-	lower = accurate.SqrtDown(accurate.Down(1 - hUpper))
+	lower = DistanceLower(hUpper)
 	if d2, ok := oneMatrixLower(ctx, w); ok {
 		lower = math.Max(lower, accurate.SqrtDown(d2))
 	}

@@ -85,51 +85,30 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 	// outs grows as starts finish (under mu): a large Starts cut short by a
 	// deadline costs no up-front allocation.
 	var outs []startOut
-	next := make(chan int)
-	var wg sync.WaitGroup
 	var mu sync.Mutex
 	best := 1.0
 	gate := NewThrottle(ms.Progress)
 	done := 0
-	for range workers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				if ctx.Err() != nil {
-					continue // cancelled: drain without starting (the start stays not done)
-				}
-				o := &oracle{w: w}
-				x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
-				ms.startPoint(o, i, x, y)
-				st, _ := l.Refine(ctx, w, x, y)
-				u, err := Verify(w, x, y)
-				if err != nil {
-					u = 1
-				}
-				out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, done: true}
-				mu.Lock()
-				if i >= len(outs) {
-					outs = append(outs, make([]startOut, i+1-len(outs))...)
-				}
-				outs[i] = out
-				done++
-				best = math.Min(best, u)
-				gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
-				mu.Unlock()
-			}
-		}()
-	}
-feed:
-	for i := 0; i < starts && ctx.Err() == nil; i++ {
-		select {
-		case next <- i:
-		case <-ctx.Done():
-			break feed
+	ParallelFor(ctx, starts, workers, func(_, i int) {
+		o := NewCounter(w)
+		x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
+		ms.startPoint(o, i, x, y)
+		st, _ := l.Refine(ctx, w, x, y)
+		u, err := Verify(w, x, y)
+		if err != nil {
+			u = 1
 		}
-	}
-	close(next)
-	wg.Wait()
+		out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, done: true}
+		mu.Lock()
+		if i >= len(outs) {
+			outs = append(outs, make([]startOut, i+1-len(outs))...)
+		}
+		outs[i] = out
+		done++
+		best = math.Min(best, u)
+		gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
+		mu.Unlock()
+	})
 
 	res := Result{FoundBy: ms.Name(), Upper: 1, Status: Converged}
 	var pts []Point

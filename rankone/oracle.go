@@ -6,13 +6,11 @@ import (
 	"github.com/segre-lab/segre/subspace"
 )
 
-// oracle wraps a Subspace and counts the contractions a strategy calls, so
-// that no strategy counts by hand. Each call of a method below is one
-// evaluation (about one or two passes over the stored basis).
-type oracle struct {
-	w     *subspace.Subspace
-	evals int
-}
+// oracle is the package's short name for Counter: every contraction a
+// strategy calls goes through it, so that no strategy counts by hand. Each
+// call of a method below is one evaluation (about one or two passes over
+// the stored basis).
+type oracle = Counter
 
 func (o *oracle) G(dst *mat.SymDense, y []float64) { o.evals++; o.w.G(dst, y) }
 func (o *oracle) H(dst *mat.SymDense, x []float64) { o.evals++; o.w.H(dst, x) }

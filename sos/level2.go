@@ -292,7 +292,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 		}
 	}
 	hb := e.bound(float64(sol.Dual*(1+1e-12))+1e-15, k, func() bool { return ctx.Err() != nil })
-	if lo := lowerFromH(hb); lo > 0 {
+	if lo := rankone.DistanceLower(hb); lo > 0 {
 		res.Lower, res.LowerBy = lo, "sos level 2"
 	}
 	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s

@@ -239,7 +239,7 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 		res.Status = rankone.LimitReached
 	}
 	if hb, verr := Verify(w, rel.Certificate(sol.Y)); verr == nil {
-		if lo := lowerFromH(hb); lo > 0 {
+		if lo := rankone.DistanceLower(hb); lo > 0 {
 			res.Lower, res.LowerBy = lo, "sos level 1"
 		}
 	}
@@ -259,8 +259,8 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 // startResult is the Result every SOS searcher starts from: the trivial
 // witness, whose Upper is valid whatever happens next.
 func startResult(w *subspace.Subspace, name string) rankone.Result {
-	res := rankone.Result{FoundBy: name, Status: rankone.Converged, Starts: 1}
-	res.X, res.Y, res.Upper = rankone.TrivialWitness(w)
+	res := rankone.TrivialResult(w, name)
+	res.Starts = 1
 	return res
 }
 
@@ -324,13 +324,6 @@ func round(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
 	svd.UTo(&u)
 	svd.VTo(&v)
 	return mat.Col(nil, 0, &u), mat.Col(nil, 0, &v), true
-}
-
-func lowerFromH(h float64) float64 {
-	if h >= 1 {
-		return 0
-	}
-	return accurate.SqrtDown(accurate.Down(1 - math.Max(h, 0)))
 }
 
 // WriteSDPA writes the relaxation in the SDPA sparse format, so that any SDP

@@ -11,12 +11,23 @@
 // Lower ≤ d* ≤ Upper, that Accuracy holds when claimed, that a rerun gives a
 // bit-for-bit identical Result, that every variant in SameAs agrees bit for
 // bit, and that an already-cancelled context gives status Cancelled with
-// ctx.Err() and still-valid bounds.
+// ctx.Err() and still-valid bounds. Each property that fails is reported
+// once, with the number of instances it failed on and the first of them.
+//
+// How a strategy passes, built on the rankone kit: return
+// rankone.WitnessResult(w, name, x, y) for the witness it found (Upper is
+// then Verify at the unit witness), set Lower only from a proven bound on
+// h* through rankone.DistanceLower, name it in LowerBy, check ctx at least
+// once per iteration and on cancellation return the best Result so far with
+// Status rankone.Cancelled and ctx.Err(), draw random numbers from a source
+// seeded by (Seed, work item), and spread work with rankone.ParallelFor,
+// each item writing its own slot, merged in index order.
 package searchtest
 
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"testing"
 
@@ -42,16 +53,51 @@ type Options struct {
 }
 
 // Run runs the suite; newSearcher returns a fresh Searcher for each call.
-func Run(t *testing.T, newSearcher func() rankone.Searcher, opt Options) {
+func Run(t testing.TB, newSearcher func() rankone.Searcher, opt Options) {
 	t.Helper()
 	insts := opt.Instances
 	if insts == nil {
 		insts = suite.ClosedForms(testing.Short())
 	}
+	tl := &tally{byProp: map[string]*failure{}}
+	runs := 0
 	for _, in := range insts {
 		for _, inst := range []suite.Instance{in, suite.Rotated(in, 7)} {
-			t.Run(inst.Name, func(t *testing.T) { runOne(t, newSearcher, opt, inst) })
+			runs++
+			tl.inst = inst.Name
+			runOne(t, tl, newSearcher, opt, inst)
 		}
+	}
+	for _, prop := range tl.order {
+		f := tl.byProp[prop]
+		t.Errorf("%s: failed on %d of %d instances; first on %s: %s", prop, f.count, runs, f.inst, f.msg)
+	}
+}
+
+// tally collects failed properties so that each is reported once.
+type tally struct {
+	inst   string // the instance being run
+	order  []string
+	byProp map[string]*failure
+}
+
+type failure struct {
+	count     int
+	inst, msg string
+	last      string // the last instance counted
+}
+
+// fail records that property prop failed on the current instance.
+func (tl *tally) fail(prop, format string, args ...any) {
+	f := tl.byProp[prop]
+	if f == nil {
+		f = &failure{inst: tl.inst, msg: fmt.Sprintf(format, args...)}
+		tl.byProp[prop] = f
+		tl.order = append(tl.order, prop)
+	}
+	if f.last != tl.inst {
+		f.count++
+		f.last = tl.inst
 	}
 }
 
@@ -65,7 +111,7 @@ func Run(t *testing.T, newSearcher func() rankone.Searcher, opt Options) {
 // smallest nonzero singular value of the normalised input (gonum's SVD),
 // and the loss of orthogonality of the stored vectors adds at most η.
 // Dependent inputs (σ_k below the rank tolerance) give +Inf: no claim.
-func Slack(t *testing.T, b subspace.Basis, w *subspace.Subspace) float64 {
+func Slack(t testing.TB, b subspace.Basis, w *subspace.Subspace) float64 {
 	L := b.Rows * b.Cols
 	a := mat.NewDense(L, b.Count, nil)
 	for c := 0; c < b.Count; c++ {
@@ -98,100 +144,104 @@ func Slack(t *testing.T, b subspace.Basis, w *subspace.Subspace) float64 {
 	return e/(sk-e) + 2*w.OrthogonalityBound() + 1e-14
 }
 
-func runOne(t *testing.T, newSearcher func() rankone.Searcher, opt Options, inst suite.Instance) {
+func runOne(t testing.TB, tl *tally, newSearcher func() rankone.Searcher, opt Options, inst suite.Instance) {
 	w, err := subspace.New(inst.Basis, subspace.Options{})
 	if err != nil {
-		t.Fatalf("subspace.New: %v", err)
+		tl.fail("the instance builds", "subspace.New: %v", err)
+		return
 	}
 	slack := Slack(t, inst.Basis, w)
 	ctx := context.Background()
 	res, err := newSearcher().Search(ctx, w)
 	if err != nil {
-		t.Fatalf("Search: %v", err)
+		tl.fail("Search succeeds", "Search: %v", err)
+		return
 	}
-	checkResult(t, w, inst, res, slack)
+	checkResult(tl, w, inst, res, slack)
 	if res.Status == rankone.Cancelled {
-		t.Errorf("status %v on an uncancelled context", res.Status)
+		tl.fail("not cancelled without cause", "status %v on an uncancelled context", res.Status)
 	}
 	if opt.Accuracy > 0 {
 		// Claimed accuracy, widened only by the stored-versus-exact slack.
 		if res.Upper > inst.Optimum+opt.Accuracy+slack {
-			t.Errorf("Upper = %.6g, want ≤ d* + %g = %.6g", res.Upper, opt.Accuracy, inst.Optimum+opt.Accuracy)
+			tl.fail("claimed accuracy", "Upper = %.6g, want ≤ d* + %g = %.6g", res.Upper, opt.Accuracy, inst.Optimum+opt.Accuracy)
 		}
 		if inst.X0 != nil && inst.Family == "planted" {
 			// Derived: for a planted instance with an isolated zero, a witness
 			// with d ≤ Accuracy lies within O(Accuracy) of ±(x₀, y₀).
 			ov := math.Abs(dot(res.X, inst.X0)) * math.Abs(dot(res.Y, inst.Y0))
 			if ov < 1-math.Max(1e-6, 100*opt.Accuracy) {
-				t.Errorf("planted point not recovered: overlap %.12f", ov)
+				tl.fail("planted point recovered", "overlap %.12f", ov)
 			}
 		}
 	}
 	// A rerun is bit-for-bit identical (Elapsed aside).
 	again, err := newSearcher().Search(ctx, w)
 	if err != nil {
-		t.Fatalf("second Search: %v", err)
+		tl.fail("rerun succeeds", "second Search: %v", err)
+		return
 	}
-	same(t, "rerun", res, again)
+	same(tl, "rerun is identical", res, again)
 	for i, v := range opt.SameAs {
 		r, err := v().Search(ctx, w)
 		if err != nil {
-			t.Fatalf("variant %d: %v", i, err)
+			tl.fail("variants succeed", "variant %d: %v", i, err)
+			return
 		}
-		same(t, "variant", res, r)
+		same(tl, "variants are identical", res, r)
 	}
 	// An already-cancelled context: status Cancelled, ctx.Err(), valid bounds.
 	cctx, cancel := context.WithCancel(ctx)
 	cancel()
 	cr, err := newSearcher().Search(cctx, w)
 	if !errors.Is(err, context.Canceled) {
-		t.Errorf("cancelled Search returned error %v, want context.Canceled", err)
+		tl.fail("cancelled search returns ctx.Err()", "error %v, want context.Canceled", err)
 	}
 	if cr.Status != rankone.Cancelled {
-		t.Errorf("cancelled Search status %v, want cancelled", cr.Status)
+		tl.fail("cancelled search says so", "status %v, want cancelled", cr.Status)
 	}
-	checkResult(t, w, inst, cr, slack)
+	checkResult(tl, w, inst, cr, slack)
 }
 
-func checkResult(t *testing.T, w *subspace.Subspace, inst suite.Instance, res rankone.Result, slack float64) {
-	t.Helper()
+func checkResult(tl *tally, w *subspace.Subspace, inst suite.Instance, res rankone.Result, slack float64) {
 	if len(res.X) != w.Rows() || len(res.Y) != w.Cols() {
-		t.Fatalf("witness lengths %d, %d; want %d, %d", len(res.X), len(res.Y), w.Rows(), w.Cols())
+		tl.fail("witness has the right lengths", "lengths %d, %d; want %d, %d", len(res.X), len(res.Y), w.Rows(), w.Cols())
+		return
 	}
 	// Unit witness: normalised in floating point, so ‖x‖ = 1 to within a few
 	// ulps times the length (common practice).
 	for _, v := range [][]float64{res.X, res.Y} {
 		if nv := math.Sqrt(dot(v, v)); math.Abs(nv-1) > 1e-12 {
-			t.Errorf("witness norm %v, want 1", nv)
+			tl.fail("witness is unit", "norm %v, want 1", nv)
 		}
 	}
 	u, err := rankone.Verify(w, res.X, res.Y)
 	if err != nil {
-		t.Fatalf("Verify: %v", err)
+		tl.fail("witness verifies", "Verify: %v", err)
+		return
 	}
 	if u != res.Upper {
-		t.Errorf("Upper = %v, Verify at the witness = %v", res.Upper, u)
+		tl.fail("Upper is Verify at the witness", "Upper = %v, Verify at the witness = %v", res.Upper, u)
 	}
 	if !(res.Lower >= 0 && res.Lower <= res.Upper) {
-		t.Errorf("bounds out of order: Lower %v, Upper %v", res.Lower, res.Upper)
+		tl.fail("0 ≤ Lower ≤ Upper", "Lower %v, Upper %v", res.Lower, res.Upper)
 	}
 	if res.Lower > 0 && res.LowerBy == "" {
-		t.Errorf("Lower = %v but LowerBy is empty", res.Lower)
+		tl.fail("a Lower names its argument", "Lower = %v but LowerBy is empty", res.Lower)
 	}
 	if !math.IsNaN(inst.Optimum) {
 		// The instance's d* (closed form) against the certified interval,
 		// allowing the stored-versus-exact slack (see Slack).
 		if res.Lower > inst.Optimum+slack {
-			t.Errorf("Lower = %.17g exceeds d* = %.17g (slack %.3g)", res.Lower, inst.Optimum, slack)
+			tl.fail("Lower ≤ d*", "Lower = %.17g exceeds d* = %.17g (slack %.3g)", res.Lower, inst.Optimum, slack)
 		}
 		if res.Upper < inst.Optimum-slack {
-			t.Errorf("Upper = %.17g below d* = %.17g (slack %.3g)", res.Upper, inst.Optimum, slack)
+			tl.fail("Upper ≥ d*", "Upper = %.17g below d* = %.17g (slack %.3g)", res.Upper, inst.Optimum, slack)
 		}
 	}
 }
 
-func same(t *testing.T, what string, a, b rankone.Result) {
-	t.Helper()
+func same(tl *tally, what string, a, b rankone.Result) {
 	eq := func(x, y []float64) bool {
 		if len(x) != len(y) {
 			return false
@@ -204,7 +254,7 @@ func same(t *testing.T, what string, a, b rankone.Result) {
 		return true
 	}
 	if !eq(a.X, b.X) || !eq(a.Y, b.Y) || a.Upper != b.Upper || a.Lower != b.Lower || a.Status != b.Status {
-		t.Errorf("%s differs: Upper %v vs %v, Lower %v vs %v, status %v vs %v", what, a.Upper, b.Upper, a.Lower, b.Lower, a.Status, b.Status)
+		tl.fail(what, "Upper %v vs %v, Lower %v vs %v, status %v vs %v", a.Upper, b.Upper, a.Lower, b.Lower, a.Status, b.Status)
 	}
 }
 
