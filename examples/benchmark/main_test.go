@@ -3,11 +3,16 @@ package main
 import (
 	"bytes"
 	"errors"
+	"image/png"
 	"io"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/plot/vg/vgimg"
+
+	"github.com/segre-lab/segre/rankone/suite"
 )
 
 // The example runs on a tiny sweep (sharded and merged, and the planted
@@ -64,6 +69,8 @@ func TestBadInvocations(t *testing.T) {
 	os.WriteFile(junk, []byte("{\"family\": 3}\nnot json\n"), 0o644)
 	aFile := filepath.Join(dir, "plain")
 	os.WriteFile(aFile, []byte("x"), 0o644)
+	empty := filepath.Join(dir, "empty.jsonl")
+	os.WriteFile(empty, nil, 0o644)
 	cases := [][]string{
 		{"-nosuchflag"},
 		{"-budget", "0s"},
@@ -80,6 +87,14 @@ func TestBadInvocations(t *testing.T) {
 		{"merge", trunc},
 		{"merge", junk},
 		{"merge", dir},
+		{"plot"},
+		{"plot", "-nosuchflag", good},
+		{"plot", filepath.Join(dir, "missing.jsonl")},
+		{"plot", trunc},
+		{"plot", junk},
+		{"plot", dir},
+		{"plot", empty},
+		{"plot", "-out", filepath.Join(aFile, "sub"), good},
 	}
 	if _, err := os.Stat("/proc/self/mem"); err == nil {
 		cases = append(cases, []string{"merge", "/proc/self/mem"}) // opens, but reading fails (EIO)
@@ -122,5 +137,119 @@ func TestWriteAtomic(t *testing.T) {
 	ents, _ := os.ReadDir(dir)
 	if len(ents) != 1 {
 		t.Errorf("directory holds %d entries, want only the report", len(ents))
+	}
+}
+
+// -h, alone or after merge or plot, prints the usage with every flag on
+// stderr and exits 0 with nothing on stdout.
+func TestHelp(t *testing.T) {
+	for _, args := range [][]string{{"-h"}, {"-help"}, {"merge", "-h"}, {"plot", "-h"}, {"plot", "some.jsonl", "-h"}} {
+		var out, errb bytes.Buffer
+		if code := run(args, &out, &errb); code != 0 || out.Len() != 0 {
+			t.Errorf("%v: exit %d, stdout %q; want 0 and nothing", args, code, out.String())
+		}
+		msg := errb.String()
+		for _, want := range []string{"usage: benchmark", "benchmark merge", "benchmark plot", "Exit status",
+			"-sweep", "-short", "-budget", "-shard", "-out", "-quiet", "-planted"} {
+			if !strings.Contains(msg, want) {
+				t.Errorf("%v: usage lacks %q:\n%s", args, want, msg)
+			}
+		}
+	}
+}
+
+// handRecords are records of a user's own searcher ("mine") and another,
+// made by hand as suite.Run would emit them, on planted 6×6 instances of
+// dimensions 3 and 10.
+func handRecords() []suite.Record {
+	var recs []suite.Record
+	for i, k := range []int{3, 10} {
+		for _, s := range []string{"mine", "theirs"} {
+			ok := s == "mine" || k == 3
+			upper := 0.25
+			if ok {
+				upper = 0
+			}
+			recs = append(recs, suite.Record{Index: i, Family: "planted", Instance: "planted/6x6", Rows: 6, Cols: 6, Dim: k,
+				Optimum: &suite.Number{}, Searcher: s, Upper: upper, Status: "converged", Seconds: 0.01 * float64(i+1),
+				Success: ok, Points: -1})
+		}
+	}
+	return recs
+}
+
+// "benchmark plot" draws the plots of any record file, with flags before or
+// after the files, leaves the record file as it was, and writes nothing but
+// the plots. Each PNG is wider than the axes (plotWidth) and has ink in the
+// strip to their right: the legend's own column, where it covers no line.
+func TestPlotCommand(t *testing.T) {
+	dir := t.TempDir()
+	in := filepath.Join(dir, "mine.jsonl")
+	var buf bytes.Buffer
+	if err := suite.WriteJSONL(&buf, handRecords()); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(in, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for i, args := range [][]string{
+		{"plot", "-planted", "-out", filepath.Join(dir, "a"), in},
+		{"plot", in, "-out", filepath.Join(dir, "b"), "-planted"},
+	} {
+		var out, errb bytes.Buffer
+		if code := run(args, &out, &errb); code != 0 || errb.Len() != 0 || out.Len() != 0 {
+			t.Fatalf("%v: exit %d, stdout %q, stderr %q", args, code, out.String(), errb.String())
+		}
+		outDir := filepath.Join(dir, []string{"a", "b"}[i])
+		ents, _ := os.ReadDir(outDir)
+		var names []string
+		for _, e := range ents {
+			names = append(names, e.Name())
+		}
+		if got := strings.Join(names, " "); got != "profile.png profile.svg success.png success.svg" {
+			t.Errorf("%v wrote %q, want the four plots only", args, got)
+		}
+		for _, base := range []string{"profile", "success"} {
+			checkLegendBeside(t, filepath.Join(outDir, base+".png"))
+			b, err := os.ReadFile(filepath.Join(outDir, base+".svg"))
+			if err != nil || !bytes.Contains(b, []byte("<svg")) || !bytes.Contains(b, []byte("mine")) {
+				t.Errorf("%s.svg is not an SVG naming the searcher: %v", base, err)
+			}
+		}
+	}
+	if b, _ := os.ReadFile(in); !bytes.Equal(b, buf.Bytes()) {
+		t.Error("the record file was changed")
+	}
+}
+
+// checkLegendBeside decodes a PNG and checks that it extends past the axes'
+// width (plotWidth at vgimg's default resolution, the one the PNG canvas
+// uses) and that the extra strip holds dark pixels (the legend's text).
+func checkLegendBeside(t *testing.T, path string) {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	img, err := png.Decode(f)
+	if err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+	axes := int(plotWidth.Dots(vgimg.DefaultDPI))
+	b := img.Bounds()
+	if b.Dx() <= axes+10 {
+		t.Fatalf("%s is %d pixels wide: no room beside the %d-pixel axes for the legend", path, b.Dx(), axes)
+	}
+	dark := 0
+	for y := b.Min.Y; y < b.Max.Y; y++ {
+		for x := b.Min.X + axes; x < b.Max.X; x++ {
+			if r, g, bl, _ := img.At(x, y).RGBA(); r+g+bl < 3*0x8000 {
+				dark++
+			}
+		}
+	}
+	if dark == 0 {
+		t.Errorf("%s: nothing drawn beside the axes; the legend is not in its own column", path)
 	}
 }
