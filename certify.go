@@ -258,7 +258,7 @@ func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace
 		}
 	}
 	phase(Orthonormalising)
-	w, err := subspace.NewContext(ctx, b, opt.Subspace)
+	w, err := subspace.New(ctx, b, opt.Subspace)
 	if err != nil {
 		return nil, Report{}, err
 	}

@@ -16,7 +16,7 @@ import (
 
 func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace {
 	t.Helper()
-	w, err := subspace.New(in.Basis, subspace.Options{})
+	w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

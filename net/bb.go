@@ -212,7 +212,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	res.X, res.Y, res.Upper, res.Value = inc.X, inc.Y, inc.Upper, inc.Value
 	res.Evaluations += inc.Evaluations
 	hLow := rankone.ValueLower(res.Upper)
-	lam, _ := rankone.FlatteningBoundContext(ctx, w)
+	lam, _ := rankone.FlatteningBound(ctx, w)
 	lam = math.Min(lam, 1)
 	bestEst := res.Value
 

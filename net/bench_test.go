@@ -19,7 +19,7 @@ func BenchmarkBranchBound(b *testing.B) {
 	for _, d := range []int{2, 3, 4} {
 		for _, n := range []int{8, 32, 64} {
 			in := suite.Random(d, n, d*n/2, 1)
-			w, err := subspace.New(in.Basis, subspace.Options{})
+			w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -44,7 +44,7 @@ func BenchmarkExhaustive(b *testing.B) {
 	for _, d := range []int{2, 3, 4} {
 		for _, n := range []int{8, 32, 64} {
 			in := suite.Random(d, n, d*n/2, 1)
-			w, err := subspace.New(in.Basis, subspace.Options{})
+			w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -67,7 +67,7 @@ func BenchmarkExhaustive(b *testing.B) {
 // d = 3, n = 32 (same answer, by the conformance test).
 func BenchmarkWorkers(b *testing.B) {
 	in := suite.Random(3, 32, 48, 1)
-	w, _ := subspace.New(in.Basis, subspace.Options{})
+	w, _ := subspace.New(context.Background(), in.Basis, subspace.Options{})
 	for _, k := range []int{1, 2} {
 		b.Run(fmt.Sprintf("workers%d", k), func(b *testing.B) {
 			for b.Loop() {

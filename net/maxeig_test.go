@@ -1,6 +1,7 @@
 package net
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -17,7 +18,7 @@ import (
 func TestMaxEigBounds(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 12))
 	for _, c := range []struct{ r, m, n int }{{3, 3, 5}, {12, 3, 5}, {2, 6, 2}, {9, 4, 3}, {15, 3, 5}} {
-		w, err := subspace.New(subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: reference.RandMatrices(rng, c.r, c.m, c.n)}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: reference.RandMatrices(rng, c.r, c.m, c.n)}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -62,7 +63,7 @@ func TestMaxEigBounds(t *testing.T) {
 func TestBlockForm(t *testing.T) {
 	rng := rand.New(rand.NewPCG(13, 14))
 	for _, c := range []struct{ r, m, n int }{{3, 3, 5}, {12, 3, 5}, {5, 4, 3}, {10, 4, 3}} {
-		w, err := subspace.New(subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: reference.RandMatrices(rng, c.r, c.m, c.n)}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: reference.RandMatrices(rng, c.r, c.m, c.n)}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -99,7 +100,7 @@ func TestBlockForm(t *testing.T) {
 func TestMaxEigOverflow(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 7))
 	for _, r := range []int{2, 10} { // stores W, then W⊥
-		w, err := subspace.New(subspace.Basis{Count: r, Rows: 3, Cols: 4, Data: reference.RandMatrices(rng, r, 3, 4)}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: r, Rows: 3, Cols: 4, Data: reference.RandMatrices(rng, r, 3, 4)}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}

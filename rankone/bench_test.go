@@ -17,7 +17,7 @@ import (
 func BenchmarkPlanted(b *testing.B) {
 	for _, n := range []int{32, 64} {
 		in := suite.Planted(n, n, n, 1)
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		if err != nil {
 			b.Fatal(err)
 		}

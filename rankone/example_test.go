@@ -17,7 +17,7 @@ func Example() {
 		0, 0, 1, 0, 0, 0, -1, 0, 0,
 		0, 0, 0, 0, 0, 1, 0, -1, 0,
 	}}
-	w, err := subspace.New(b, subspace.Options{})
+	w, err := subspace.New(context.Background(), b, subspace.Options{})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -45,7 +45,7 @@ func ExampleVerify() {
 		3, -1, 1, 6, -2, 2, // x yᵀ
 		1, 0, 0, 0, 0, 1,
 	}}
-	w, _ := subspace.New(b, subspace.Options{})
+	w, _ := subspace.New(context.Background(), b, subspace.Options{})
 	u, _ := rankone.Verify(w, x, y)
 	fmt.Println(u < 1e-14)
 	// Output: true

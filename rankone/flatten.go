@@ -28,14 +28,10 @@ import (
 // on d* is also computed from the tail of the singular values, without
 // forming 1 − h (see oneMatrixLower), so that it stays positive for
 // distances down to about 1e-15 instead of 1e-8.
-func FlatteningBound(w *subspace.Subspace) (hUpper, lower float64) {
-	return FlatteningBoundContext(context.Background(), w)
-}
-
-// FlatteningBoundContext is FlatteningBound under a context: when ctx is
-// done first it returns whatever it has proven (at worst hUpper = 1,
-// lower = 0), within one block of 16 rows of a Cholesky test.
-func FlatteningBoundContext(ctx context.Context, w *subspace.Subspace) (hUpper, lower float64) {
+//
+// When ctx is done first it returns whatever it has proven (at worst
+// hUpper = 1, lower = 0), within one block of 16 rows of a Cholesky test.
+func FlatteningBound(ctx context.Context, w *subspace.Subspace) (hUpper, lower float64) {
 	h1, h2 := FlatteningBounds(ctx, w)
 	hUpper = math.Min(1, math.Min(h1, h2))
 	if hUpper < 0 {
@@ -62,7 +58,7 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 	start := time.Now()
 	o := &oracle{w: w}
 	res := Result{FoundBy: f.Name(), Starts: 1}
-	hu, lo := FlatteningBoundContext(ctx, w)
+	hu, lo := FlatteningBound(ctx, w)
 	_ = hu
 	if lo > 0 {
 		res.Lower, res.LowerBy = lo, "flattening"

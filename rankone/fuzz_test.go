@@ -1,6 +1,7 @@
 package rankone
 
 import (
+	"context"
 	"math"
 	"testing"
 
@@ -20,12 +21,12 @@ func FuzzVerify(f *testing.F) {
 	// W = span{diag(2, 1)} in 2×3: h* = 4/5 (the top squared singular value
 	// over the squared norm, common practice), and the flattening bound is
 	// exact here, so Lower ≈ √(1/5) (checked to be positive below).
-	w, err := subspace.New(subspace.Basis{Count: 1, Rows: 2, Cols: 3, Data: []float64{
+	w, err := subspace.New(context.Background(), subspace.Basis{Count: 1, Rows: 2, Cols: 3, Data: []float64{
 		2, 0, 0, 0, 1, 0}}, subspace.Options{})
 	if err != nil {
 		f.Fatal(err)
 	}
-	_, lower := FlatteningBound(w)
+	_, lower := FlatteningBound(context.Background(), w)
 	if !(lower > 0) {
 		f.Fatalf("flattening lower bound %v; the check below would be empty", lower)
 	}

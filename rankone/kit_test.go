@@ -46,7 +46,7 @@ func TestParallelFor(t *testing.T) {
 // unusable witness gives the trivial result, still valid.
 func TestWitnessResult(t *testing.T) {
 	rng := rand.New(rand.NewPCG(71, 72))
-	w, err := subspace.New(subspace.Basis{Count: 3, Rows: 3, Cols: 4, Data: reference.RandMatrices(rng, 3, 3, 4)}, subspace.Options{})
+	w, err := subspace.New(context.Background(), subspace.Basis{Count: 3, Rows: 3, Cols: 4, Data: reference.RandMatrices(rng, 3, 3, 4)}, subspace.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -22,7 +22,7 @@ import (
 func TestMemoryLimitRespected(t *testing.T) {
 	in := suite.OneMatrix(2, 200000, 7)
 	for _, limit := range []int64{0, 64 << 20} {
-		w, err := subspace.New(in.Basis, subspace.Options{MaxBytes: limit})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{MaxBytes: limit})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -32,7 +32,7 @@ func TestMemoryLimitRespected(t *testing.T) {
 		var before, after runtime.MemStats
 		runtime.GC()
 		runtime.ReadMemStats(&before)
-		_, lo := rankone.FlatteningBound(w)
+		_, lo := rankone.FlatteningBound(context.Background(), w)
 		runtime.ReadMemStats(&after)
 		res, err := (&rankone.Portfolio{Members: []rankone.Searcher{rankone.Flattening{}, &rankone.MultiStart{Starts: 2, Workers: 1}}}).Search(context.Background(), w)
 		if err != nil {

@@ -20,13 +20,13 @@ import (
 func TestOneMatrixTinyDistance(t *testing.T) {
 	for _, tv := range []float64{1e-3, 1e-7, 3e-9, 1e-10, 1e-12, 1e-13, 1e-15, 0} {
 		b := subspace.Basis{Count: 1, Rows: 2, Cols: 2, Data: []float64{1, 0, 0, tv}}
-		w, err := subspace.New(b, subspace.Options{})
+		w, err := subspace.New(context.Background(), b, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
 		q := w.Stored().Vector(0, nil)
 		d2 := exactOneMatrixD2(q)
-		_, lo := FlatteningBound(w)
+		_, lo := FlatteningBound(context.Background(), w)
 		l2 := new(big.Rat).SetFloat64(lo)
 		l2.Mul(l2, l2)
 		if l2.Cmp(d2) > 0 {
@@ -85,11 +85,11 @@ func TestOneMatrixAgainstLocalSearch(t *testing.T) {
 				a[i*n+j] = x[i]*y[j] + tv*rng.NormFloat64()
 			}
 		}
-		w, err := subspace.New(subspace.Basis{Count: 1, Rows: m, Cols: n, Data: a}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: 1, Rows: m, Cols: n, Data: a}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
-		_, lo := FlatteningBound(w)
+		_, lo := FlatteningBound(context.Background(), w)
 		res, err := (&ALS{}).Search(context.Background(), w)
 		if err != nil {
 			t.Fatal(err)

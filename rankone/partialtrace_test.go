@@ -27,7 +27,7 @@ func TestFlatteningBoundsRoutes(t *testing.T) {
 		for i := range data {
 			data[i] = rng.NormFloat64()
 		}
-		w, err := subspace.New(subspace.Basis{Count: k, Rows: m, Cols: n, Data: data}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: k, Rows: m, Cols: n, Data: data}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -87,7 +87,7 @@ func TestFlatteningBoundsRoutes(t *testing.T) {
 	}
 	// A cancelled context: every returned bound is still valid (here +Inf or
 	// the Gershgorin bound, both ≥ λmax).
-	w, _ := subspace.New(subspace.Basis{Count: 1, Rows: 2, Cols: 2, Data: []float64{2, 0, 0, 1}}, subspace.Options{})
+	w, _ := subspace.New(context.Background(), subspace.Basis{Count: 1, Rows: 2, Cols: 2, Data: []float64{2, 0, 0, 1}}, subspace.Options{})
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
 	if h1, h2 := FlatteningBounds(ctx, w); h1 < 0.8 || h2 < 0.8 {
@@ -104,7 +104,7 @@ func TestPartialTracesAgainstGonum(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	for _, c := range []struct{ r, m, n int }{{3, 4, 4}, {6, 3, 4}, {10, 3, 4}, {2, 2, 7}, {12, 3, 4}, {2, 5, 1}} {
 		data := reference.RandMatrices(rng, c.r, c.m, c.n)
-		w, err := subspace.New(subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: data}, subspace.Options{})
+		w, err := subspace.New(context.Background(), subspace.Basis{Count: c.r, Rows: c.m, Cols: c.n, Data: data}, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -128,7 +128,7 @@ func TestPartialTracesAgainstGonum(t *testing.T) {
 func TestConcurrentFlatteningBounds(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 10))
 	data := reference.RandMatrices(rng, 5, 4, 6)
-	w, err := subspace.New(subspace.Basis{Count: 5, Rows: 4, Cols: 6, Data: data}, subspace.Options{})
+	w, err := subspace.New(context.Background(), subspace.Basis{Count: 5, Rows: 4, Cols: 6, Data: data}, subspace.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -89,7 +89,7 @@ func TestPointsJennrich(t *testing.T) {
 				in = suite.Rotated(in, 3)
 				aa, bb = nil, nil
 			}
-			w, err := subspace.New(in.Basis, subspace.Options{})
+			w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -119,7 +119,7 @@ func TestPointsPencilCount(t *testing.T) {
 	for trial := 0; trial < 6; trial++ {
 		n := 3 + trial%4
 		in := suite.Random(2, n, n, uint64(trial))
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -171,7 +171,7 @@ func TestPointsPencilCount(t *testing.T) {
 		for s := range a {
 			a[s], b[s] = gauss(rng, 2), gauss(rng, n)
 		}
-		w, _ := subspace.New(spanOf(rng, a, b), subspace.Options{})
+		w, _ := subspace.New(context.Background(), spanOf(rng, a, b), subspace.Options{})
 		pts, err := (&rankone.AllPoints{}).Points(context.Background(), w)
 		if err != nil {
 			t.Fatal(err)
@@ -185,7 +185,7 @@ func TestPointsFailures(t *testing.T) {
 	rng := rand.New(rand.NewPCG(25, 26))
 	ctx := context.Background()
 	// Too many terms: dim 7 > min(4, 5).
-	w, _ := subspace.New(suite.Random(4, 5, 7, 1).Basis, subspace.Options{})
+	w, _ := subspace.New(context.Background(), suite.Random(4, 5, 7, 1).Basis, subspace.Options{})
 	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrTooManyTerms) {
 		t.Errorf("r > min(m, n): %v", err)
 	}
@@ -197,7 +197,7 @@ func TestPointsFailures(t *testing.T) {
 		1, 0, 0, 0, 1, 0, 0, 0, 0,
 		0, -1, 0, 1, 0, 0, 0, 0, 0,
 	}}
-	w, _ = subspace.New(b, subspace.Options{})
+	w, _ = subspace.New(context.Background(), b, subspace.Options{})
 	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrComplex) {
 		t.Errorf("no real points: %v", err)
 	}
@@ -206,7 +206,7 @@ func TestPointsFailures(t *testing.T) {
 		1, 0, 0, 0, 1, 0, 0, 0, 1,
 		0, -1, 0, 1, 0, 0, 0, 0, 1,
 	}}
-	w, _ = subspace.New(b, subspace.Options{})
+	w, _ = subspace.New(context.Background(), b, subspace.Options{})
 	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrNotSpanned) {
 		t.Errorf("column space too large: %v", err)
 	}
@@ -216,7 +216,7 @@ func TestPointsFailures(t *testing.T) {
 	for i := range nb.Data {
 		nb.Data[i] += 1e-3 * rng.NormFloat64()
 	}
-	w, _ = subspace.New(nb, subspace.Options{})
+	w, _ = subspace.New(context.Background(), nb, subspace.Options{})
 	if _, err := (&rankone.AllPoints{}).Points(ctx, w); !errors.Is(err, rankone.ErrNotSpanned) {
 		t.Errorf("noisy span, strict: %v", err)
 	}
@@ -234,7 +234,7 @@ func TestPointsFailures(t *testing.T) {
 	a0 := gauss(rng, 4)
 	a1 := append([]float64(nil), a0...)
 	a1[0] += 1e-12
-	w, _ = subspace.New(spanOf(rng, [][]float64{a0, a1, gauss(rng, 4)}, [][]float64{gauss(rng, 4), gauss(rng, 4), gauss(rng, 4)}), subspace.Options{})
+	w, _ = subspace.New(context.Background(), spanOf(rng, [][]float64{a0, a1, gauss(rng, 4)}, [][]float64{gauss(rng, 4), gauss(rng, 4), gauss(rng, 4)}), subspace.Options{})
 	pts, err = (&rankone.AllPoints{}).Points(ctx, w)
 	if err == nil {
 		for _, p := range pts {

@@ -18,7 +18,7 @@ import (
 
 func mustNew(t *testing.T, b subspace.Basis) *subspace.Subspace {
 	t.Helper()
-	w, err := subspace.New(b, subspace.Options{})
+	w, err := subspace.New(context.Background(), b, subspace.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -31,7 +31,7 @@ func mustNew(t *testing.T, b subspace.Basis) *subspace.Subspace {
 func TestFlatteningBound(t *testing.T) {
 	for _, in := range []suite.Instance{suite.OneMatrix(4, 7, 1), suite.OneMatrix(9, 3, 2), suite.Rotated(suite.OneMatrix(5, 5, 3), 1)} {
 		w := mustNew(t, in.Basis)
-		hu, lo := rankone.FlatteningBound(w)
+		hu, lo := rankone.FlatteningBound(context.Background(), w)
 		hstar := 1 - in.Optimum*in.Optimum
 		if hu < hstar-1e-14 || hu > hstar+1e-12 {
 			t.Errorf("%s: hUpper = %.17g, h* = %.17g", in.Name, hu, hstar)
@@ -46,7 +46,7 @@ func TestFlatteningBound(t *testing.T) {
 	for trial := 0; trial < 5; trial++ {
 		in := suite.Random(3+trial, 4, 2, uint64(trial))
 		w := mustNew(t, in.Basis)
-		hu, _ := rankone.FlatteningBound(w)
+		hu, _ := rankone.FlatteningBound(context.Background(), w)
 		t1, _, t2, _ := rankone.PartialTraces(w)
 		var es mat.EigenSym
 		ref := 1.0

@@ -30,7 +30,7 @@ func BenchmarkLevelOne(b *testing.B) {
 	}
 	for _, n := range []int{4, 6, 8, 10} {
 		in := suite.Random(n, n, n*n/2, 1)
-		w, _ := subspace.New(in.Basis, subspace.Options{})
+		w, _ := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		rel, err := LevelOne(w)
 		if err != nil {
 			b.Fatal(err)
@@ -65,7 +65,7 @@ func BenchmarkLevelOne(b *testing.B) {
 func BenchmarkLevelTwo(b *testing.B) {
 	for _, n := range []int{4, 5, 6} {
 		in := suite.Random(n, n, n*n/2, 1)
-		w, _ := subspace.New(in.Basis, subspace.Options{})
+		w, _ := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		b.Run(fmt.Sprintf("n%d", n), func(b *testing.B) {
 			var r2 float64
 			for b.Loop() {
@@ -88,12 +88,12 @@ func BenchmarkLevelTwo(b *testing.B) {
 func BenchmarkEigenBound(b *testing.B) {
 	for _, c := range [][2]int{{16, 16}, {16, 128}, {32, 32}, {32, 64}} {
 		in := suite.Random(c[0], c[0], c[1], 1)
-		w, _ := subspace.New(in.Basis, subspace.Options{})
+		w, _ := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		b.Run(fmt.Sprintf("n%d/k%d", c[0], c[1]), func(b *testing.B) {
 			var v float64
 			for b.Loop() {
 				var err error
-				if v, err = EigenBound(w); err != nil {
+				if v, err = EigenBound(context.Background(), w); err != nil {
 					b.Fatal(err)
 				}
 			}

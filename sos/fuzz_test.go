@@ -1,6 +1,7 @@
 package sos
 
 import (
+	"context"
 	"encoding/binary"
 	"math"
 	"testing"
@@ -48,7 +49,7 @@ func FuzzVerify(f *testing.F) {
 	ws := make([]*subspace.Subspace, 3)
 	lows := make([]float64, 3)
 	for i, in := range []suite.Instance{suite.Random(2, 3, 3, 1), suite.Planted(2, 3, 2, 2), suite.OneMatrix(2, 3, 3)} {
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		if err != nil {
 			f.Fatal(err)
 		}

@@ -328,14 +328,9 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 // the verified Cholesky test. It returns the certified upper bound on h*.
 // It uses the k·n Gram form of subspace.ExtensionBound when W is stored
 // and k·n ≤ 4096 (same value, smaller matrix), else a dense matrix of order
-// m·n(n+1)/2 ≤ 2500.
-func EigenBound(w *subspace.Subspace) (float64, error) {
-	return EigenBoundContext(context.Background(), w)
-}
-
-// EigenBoundContext is EigenBound under a context: if ctx is done first it
-// returns 1 (the trivial bound) and ctx.Err().
-func EigenBoundContext(ctx context.Context, w *subspace.Subspace) (float64, error) {
+// m·n(n+1)/2 ≤ 2500. If ctx is done first it returns 1 (the trivial bound)
+// and ctx.Err().
+func EigenBound(ctx context.Context, w *subspace.Subspace) (float64, error) {
 	if ub, ok := ExtensionBound(ctx, w, 4096); ok {
 		return math.Min(ub, 1), nil
 	}

@@ -42,7 +42,7 @@ func TestLevelTwo(t *testing.T) {
 // the project's issue for this bound, recalled, and h* = 1/2 ≤ 3/4).
 func TestEigenBoundAntisymmetric(t *testing.T) {
 	for _, n := range []int{3, 4, 5} {
-		b, err := EigenBound(mustNew(t, suite.Antisymmetric(n)))
+		b, err := EigenBound(context.Background(), mustNew(t, suite.Antisymmetric(n)))
 		if err != nil {
 			t.Fatal(err)
 		}

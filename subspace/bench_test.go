@@ -22,7 +22,7 @@ var benchShapes = []struct{ k, m, n int }{{64, 64, 64}, {256, 32, 32}, {32, 256,
 func BenchmarkContraction(b *testing.B) {
 	for _, sh := range benchShapes {
 		rng := rand.New(rand.NewPCG(1, uint64(sh.k)))
-		w, err := New(randBasis(rng, sh.k, sh.m, sh.n), Options{})
+		w, err := New(context.Background(), randBasis(rng, sh.k, sh.m, sh.n), Options{})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -112,7 +112,7 @@ func BenchmarkNewMemory(b *testing.B) {
 	for b.Loop() {
 		runtime.ReadMemStats(&ms)
 		before := ms.TotalAlloc
-		if _, err := New(in, Options{}); err != nil {
+		if _, err := New(context.Background(), in, Options{}); err != nil {
 			b.Fatal(err)
 		}
 		runtime.ReadMemStats(&ms)
@@ -134,7 +134,7 @@ func BenchmarkNewCancelLatency(b *testing.B) {
 		ctx, cancel := context.WithCancel(context.Background())
 		done := make(chan time.Time, 1)
 		go func() {
-			NewContext(ctx, bs, Options{})
+			New(ctx, bs, Options{})
 			done <- time.Now()
 		}()
 		time.Sleep(time.Duration(10<<(i%8)) * time.Millisecond)

@@ -1,6 +1,7 @@
 package subspace
 
 import (
+	"context"
 	"math"
 	"math/big"
 	"math/rand/v2"
@@ -104,7 +105,7 @@ func TestResidualBoundIsRigorous(t *testing.T) {
 					b.Data[L+l] += 0.5 * b.Data[l]
 				}
 			}
-			w, err := New(b, Options{})
+			w, err := New(context.Background(), b, Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -150,7 +151,7 @@ func norm(v []float64) float64 {
 func TestResidualBoundOverflow(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 7))
 	for _, r := range []int{2, 10} { // stores W, then W⊥
-		w, err := New(randBasis(rng, r, 3, 4), Options{})
+		w, err := New(context.Background(), randBasis(rng, r, 3, 4), Options{})
 		if err != nil {
 			t.Fatal(err)
 		}

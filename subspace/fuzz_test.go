@@ -2,6 +2,7 @@ package subspace
 
 import (
 	"bytes"
+	"context"
 	"math"
 	"testing"
 )
@@ -70,7 +71,7 @@ func FuzzNew(f *testing.F) {
 		for i := range data {
 			data[i] = vals[i%4] * float64(1+i%3)
 		}
-		w, err := New(Basis{Count: R, Rows: M, Cols: N, Data: data}, Options{})
+		w, err := New(context.Background(), Basis{Count: R, Rows: M, Cols: N, Data: data}, Options{})
 		if err != nil {
 			return
 		}

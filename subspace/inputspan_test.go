@@ -130,7 +130,7 @@ func TestInputDistanceBoundsTruth(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			w, err := New(c.b, Options{Tol: 1e-16})
+			w, err := New(context.Background(), c.b, Options{Tol: 1e-16})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -157,7 +157,7 @@ func TestInputDistanceBoundsTruth(t *testing.T) {
 func TestInputDistanceDependent(t *testing.T) {
 	a := []float64{1, 2, 3, 4}
 	b := Basis{Count: 2, Rows: 2, Cols: 2, Data: append(append([]float64(nil), a...), a...)}
-	w, err := New(b, Options{})
+	w, err := New(context.Background(), b, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -2,6 +2,7 @@ package subspace
 
 import (
 	"bytes"
+	"context"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -257,17 +258,17 @@ func TestNewBadInput(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			if _, err := New(c.b, c.opt); !errors.Is(err, c.want) {
+			if _, err := New(context.Background(), c.b, c.opt); !errors.Is(err, c.want) {
 				t.Fatalf("error %v, want %v", err, c.want)
 			}
 		})
 	}
-	_, err := New(Basis{Count: 2, Rows: 2, Cols: 2, Data: []float64{1, 2, 3, 4, 5, 6, math.NaN(), 8}}, Options{})
+	_, err := New(context.Background(), Basis{Count: 2, Rows: 2, Cols: 2, Data: []float64{1, 2, 3, 4, 5, 6, math.NaN(), 8}}, Options{})
 	if err == nil || !strings.Contains(err.Error(), "matrix 1, entry (1, 0)") {
 		t.Errorf("NaN location not named: %v", err)
 	}
 	// Huge and tiny magnitudes are fine (each matrix is scaled to unit norm).
-	w, err := New(Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{1e300, 1e300, 1e-300, 0}}, Options{})
+	w, err := New(context.Background(), Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{1e300, 1e300, 1e-300, 0}}, Options{})
 	if err != nil || w.Dim() != 2 {
 		t.Fatalf("extreme magnitudes: %v", err)
 	}

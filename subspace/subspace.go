@@ -144,14 +144,10 @@ func (w *Subspace) RankGap() (kept, left float64) { return w.rankKept, w.rankLef
 func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 
 // New builds the subspace spanned by the matrices of b. b is not modified.
-func New(b Basis, opt Options) (*Subspace, error) {
-	return NewContext(context.Background(), b, opt)
-}
-
-// NewContext is New under a context: the factorisation checks ctx between
-// its steps (each a few milliseconds for inputs of tens of megabytes) and
-// returns ctx.Err(), wrapped, when it is done first. Nothing is kept.
-func NewContext(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
+// The factorisation checks ctx between its steps (each a few milliseconds
+// for inputs of tens of megabytes) and returns ctx.Err(), wrapped, when it
+// is done first; nothing is kept then.
+func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	if opt.Tol < 0 || opt.Tol >= 1 || math.IsNaN(opt.Tol) {
 		return nil, fmt.Errorf("%w: Tol = %v, want 0 ≤ Tol < 1", ErrOption, opt.Tol)
 	}

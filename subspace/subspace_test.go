@@ -53,7 +53,7 @@ func TestContractionsAgainstGonum(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			b := randBasis(rng, c.r, c.m, c.n)
-			w, err := New(b, Options{})
+			w, err := New(context.Background(), b, Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -169,7 +169,7 @@ func TestDependentAndZeroInputs(t *testing.T) {
 	}
 	d = append(d, extra...)
 	orig := append([]float64(nil), d...)
-	w, err := New(Basis{Count: 6, Rows: 4, Cols: 5, Data: d}, Options{})
+	w, err := New(context.Background(), Basis{Count: 6, Rows: 4, Cols: 5, Data: d}, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -192,7 +192,7 @@ func TestDependentAndZeroInputs(t *testing.T) {
 // same answers as a serial run (run under -race in CI).
 func TestConcurrentUse(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
-	w, err := New(randBasis(rng, 5, 4, 6), Options{})
+	w, err := New(context.Background(), randBasis(rng, 5, 4, 6), Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -227,7 +227,7 @@ func TestNewContext(t *testing.T) {
 	b := Basis{Count: 40, Rows: 6, Cols: 6, Data: data}
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
-	if w, err := NewContext(ctx, b, Options{}); w != nil || !errors.Is(err, context.Canceled) {
+	if w, err := New(ctx, b, Options{}); w != nil || !errors.Is(err, context.Canceled) {
 		t.Errorf("cancelled: %v, %v", w, err)
 	}
 	for i := range keep {
@@ -235,8 +235,8 @@ func TestNewContext(t *testing.T) {
 			t.Fatal("input changed")
 		}
 	}
-	w1, err1 := New(b, Options{})
-	w2, err2 := NewContext(context.Background(), b, Options{})
+	w1, err1 := New(context.Background(), b, Options{})
+	w2, err2 := New(context.Background(), b, Options{})
 	if err1 != nil || err2 != nil || w1.Dim() != w2.Dim() || w1.OrthogonalityBound() != w2.OrthogonalityBound() {
 		t.Errorf("New and NewContext differ: %v %v", err1, err2)
 	}

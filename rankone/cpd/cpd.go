@@ -117,7 +117,7 @@ func Decompose(ctx context.Context, t Tensor, opt Options) (*Decomposition, erro
 			slices[k*L+l] = t.Data[l*p+k]
 		}
 	}
-	w, err := subspace.New(subspace.Basis{Count: p, Rows: m, Cols: n, Data: slices}, subspace.Options{})
+	w, err := subspace.New(context.Background(), subspace.Basis{Count: p, Rows: m, Cols: n, Data: slices}, subspace.Options{})
 	if err != nil {
 		return nil, err
 	}
@@ -194,7 +194,7 @@ func principalSpan(slices []float64, L, p, m, n, r int) (*subspace.Subspace, err
 			data[s*L+l] = q.At(l, s)
 		}
 	}
-	return subspace.New(subspace.Basis{Count: r, Rows: m, Cols: n, Data: data}, subspace.Options{})
+	return subspace.New(context.Background(), subspace.Basis{Count: r, Rows: m, Cols: n, Data: data}, subspace.Options{})
 }
 
 // leastSquaresC solves min ‖T_(3)ᵀ − (A⊙B)Cᵀ‖ for C, with gonum's QR.

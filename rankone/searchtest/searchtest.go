@@ -145,7 +145,7 @@ func Slack(t testing.TB, b subspace.Basis, w *subspace.Subspace) float64 {
 }
 
 func runOne(t testing.TB, tl *tally, newSearcher func() rankone.Searcher, opt Options, inst suite.Instance) {
-	w, err := subspace.New(inst.Basis, subspace.Options{})
+	w, err := subspace.New(context.Background(), inst.Basis, subspace.Options{})
 	if err != nil {
 		tl.fail("the instance builds", "subspace.New: %v", err)
 		return

@@ -105,7 +105,7 @@ func BenchmarkCancelLatency(b *testing.B) {
 	for _, c := range longCases(false) {
 		b.Run(c.name, func(b *testing.B) {
 			in := c.in()
-			w, err := subspace.New(in.Basis, subspace.Options{})
+			w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -172,7 +172,7 @@ func TestNoGoroutineOutlivesSearch(t *testing.T) {
 	for _, c := range longCases(true) {
 		t.Run(c.name, func(t *testing.T) {
 			in := c.in()
-			w, err := subspace.New(in.Basis, subspace.Options{})
+			w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -1,6 +1,7 @@
 package suite
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -47,7 +48,7 @@ func TestHurwitzRadonRelations(t *testing.T) {
 func TestKnownPointsAttainOptimum(t *testing.T) {
 	insts := []Instance{OneMatrix(4, 6, 1), Symmetric(4), HurwitzRadon(4, 3), HurwitzRadon(2, 1), Planted(5, 6, 7, 2)}
 	for _, in := range append(insts, Rotated(insts[0], 3), Rotated(insts[4], 4)) {
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -58,7 +59,7 @@ func TestKnownPointsAttainOptimum(t *testing.T) {
 	}
 	// Antisymmetric: h(x, y) = (1 − (x·y)²)/2 at random points (derived).
 	rng := rand.New(rand.NewPCG(1, 2))
-	w, _ := subspace.New(Antisymmetric(5).Basis, subspace.Options{})
+	w, _ := subspace.New(context.Background(), Antisymmetric(5).Basis, subspace.Options{})
 	for i := 0; i < 10; i++ {
 		x, y := unit(gaussian(rng, 5)), unit(gaussian(rng, 5))
 		var c float64
@@ -70,7 +71,7 @@ func TestKnownPointsAttainOptimum(t *testing.T) {
 		}
 	}
 	// Hurwitz–Radon with p = n: h ≡ 1/n (derived).
-	w, _ = subspace.New(HurwitzRadon(4, 4).Basis, subspace.Options{})
+	w, _ = subspace.New(context.Background(), HurwitzRadon(4, 4).Basis, subspace.Options{})
 	for i := 0; i < 10; i++ {
 		x, y := unit(gaussian(rng, 4)), unit(gaussian(rng, 4))
 		if h := w.Value(x, y); math.Abs(h-0.25) > 1e-14 {
@@ -102,7 +103,7 @@ func TestHaarOrthogonal(t *testing.T) {
 func TestNormedAlgebraComplementConstant(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
 	for _, n := range []int{2, 4} {
-		w, err := subspace.New(NormedAlgebraComplement(n, 1).Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), NormedAlgebraComplement(n, 1).Basis, subspace.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -46,7 +46,7 @@ func FuzzStrategies(f *testing.F) {
 			}
 		}
 		b := subspace.Basis{Count: r, Rows: m, Cols: n, Data: vals}
-		w, err := subspace.New(b, subspace.Options{})
+		w, err := subspace.New(context.Background(), b, subspace.Options{})
 		if err != nil {
 			return
 		}

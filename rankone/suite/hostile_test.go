@@ -113,7 +113,7 @@ func TestHostileSubspaces(t *testing.T) {
 	for _, c := range hostileCases() {
 		t.Run(c.name, func(t *testing.T) {
 			in := append([]float64(nil), c.b.Data...)
-			w, err := subspace.New(c.b, subspace.Options{})
+			w, err := subspace.New(context.Background(), c.b, subspace.Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -188,7 +188,7 @@ func TestRankTolerancePromise(t *testing.T) {
 		tol float64
 		dim int
 	}{{0, 2}, {1e-13, 2}, {8e-13, 2}, {1e-12, 1}, {1e-11, 1}} {
-		w, err := subspace.New(b, subspace.Options{Tol: tc.tol})
+		w, err := subspace.New(context.Background(), b, subspace.Options{Tol: tc.tol})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -130,7 +130,7 @@ func TestNeverLies(t *testing.T) {
 	checked := 0
 	for i := 0; i < count; i++ {
 		in := randomInstance(i)
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		if err != nil {
 			t.Fatalf("instance %d (%s): %v", i, in.Name, err)
 		}
@@ -151,7 +151,7 @@ func TestNeverLies(t *testing.T) {
 		}
 		bs := intervals(ctx, w, searchers)
 		if i%3 == 0 {
-			if hb, err := sos.EigenBound(w); err == nil {
+			if hb, err := sos.EigenBound(context.Background(), w); err == nil {
 				// d* ≥ √(1 − hb), rounded downwards.
 				bs = append(bs, bound{"eigen-bound", accurate.SqrtDown(accurate.Down(1 - hb)), 1})
 			}

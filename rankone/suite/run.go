@@ -99,7 +99,7 @@ func Run(ctx context.Context, searchers []Named, instances []Instance, set Setti
 			return err
 		}
 		in := instances[idx]
-		w, err := subspace.New(in.Basis, subspace.Options{})
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
 		recs := make([]Record, len(searchers))
 		for j, s := range searchers {
 			r := Record{Index: idx, Family: in.Family, Instance: in.Name, Rows: in.Basis.Rows, Cols: in.Basis.Cols,

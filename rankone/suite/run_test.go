@@ -102,12 +102,12 @@ func TestRecordsAndSuccess(t *testing.T) {
 // claim d* = 0 for odd degree by many-start local search.
 func TestFamilyClaims(t *testing.T) {
 	in := RankOneSpan(4, 6, 3, 1)
-	w, _ := subspace.New(in.Basis, subspace.Options{})
+	w, _ := subspace.New(context.Background(), in.Basis, subspace.Options{})
 	if d := math.Sqrt(w.Residual(in.X0, in.Y0)); d > 1e-13 {
 		t.Errorf("rank-one span: planted point at distance %v", d)
 	}
 	pn := PlantedNoisy(5, 5, 6, 1e-3, 1)
-	w, _ = subspace.New(pn.Basis, subspace.Options{})
+	w, _ = subspace.New(context.Background(), pn.Basis, subspace.Options{})
 	if d := math.Sqrt(w.Residual(pn.X0, pn.Y0)); d > pn.Bound*(1+1e-9) {
 		t.Errorf("noisy planted: d(x₀, y₀) = %v > bound %v", d, pn.Bound)
 	}
@@ -119,7 +119,7 @@ func TestFamilyClaims(t *testing.T) {
 	if b.Degree != 3 || b.Optimum != 0 {
 		t.Fatalf("boundary 2×3: degree %d optimum %v", b.Degree, b.Optimum)
 	}
-	w, _ = subspace.New(b.Basis, subspace.Options{})
+	w, _ = subspace.New(context.Background(), b.Basis, subspace.Options{})
 	r, _ := (&rankone.MultiStart{Starts: 32}).Search(context.Background(), w)
 	if r.Upper > 1e-8 {
 		t.Errorf("boundary 2×3 (odd degree): best Upper %v, want a real point", r.Upper)
