@@ -45,7 +45,7 @@ func unitCopy(x []float64) []float64 {
 	var ss float64
 	for _, v := range out {
 		v *= s
-		ss += v * v
+		ss += float64(v * v)
 	}
 	if !(ss > 0) || math.IsInf(ss, 0) {
 		return out

@@ -20,7 +20,9 @@ const oneMatrixWork = 1 << 26
 // it does not apply (W⊥ stored, dim W ≠ 1, too large, cancelled, or a
 // factorisation that failed).
 //
-// Derivation (Eckart–Young for one matrix). W = span{A} exactly, so
+// Derivation (Eckart–Young for one matrix). gonum's SVD returns the
+// singular values sorted in decreasing order, so s₁ is the top one and the
+// tail is s₂, s₃, … (the bound below relies on that order). W = span{A} exactly, so
 // h(x, y) = (xᵀAy)²/‖A‖_F² and d*² = 1 − σ₁(A)²/‖A‖_F² =
 // Σ_{i≥2} σᵢ(A)² / ‖A‖_F²: the tail of the singular values, with no
 // cancellation. To bound the tail from below, take a computed thin SVD

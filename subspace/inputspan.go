@@ -84,8 +84,8 @@ func InputDistance(ctx context.Context, b Basis, w *Subspace) (theta float64, er
 	if r != w.k {
 		return 0, fmt.Errorf("%w: %d nonzero input matrices, the rank decision kept %d (tolerance %.3g)", ErrDependent, r, w.k, w.tol)
 	}
-	work := float64(L) * float64(r) * float64(max(w.s, r))
-	if work+float64(r)*float64(r)*float64(r) > inputWork || int64(L)*int64(r)*8*3 > w.limit {
+	work := float64(float64(L) * float64(r) * float64(max(w.s, r)))
+	if work+float64(float64(r)*float64(r)*float64(r)) > inputWork || int64(L)*int64(r)*8*3 > w.limit {
 		return 0, fmt.Errorf("%w: proving the input span's distance for %d matrices of %d×%d is beyond the work limit", ErrTooLarge, r, w.m, w.n)
 	}
 	stop := func() bool { return ctx.Err() != nil }

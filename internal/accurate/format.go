@@ -59,12 +59,10 @@ func formatDirected(v float64, digits, dir int) string {
 		case m.Cmp(hi) >= 0: // 9.99 → 10.0: one more decimal place
 			m.Quo(m, big.NewInt(10))
 			exp++
-		case m.Cmp(lo) < 0 && m.Sign() > 0: // 1.00 → 0.999
+		case m.Cmp(lo) < 0: // 1.00 → 0.999 (and, with one digit, 1 → 0.9)
 			m.Mul(m, big.NewInt(10))
 			m.Add(m, big.NewInt(9))
 			exp--
-		case m.Sign() == 0:
-			return "0"
 		}
 	}
 	return gStyle(neg, m.String(), exp, digits)

@@ -58,6 +58,9 @@ func TestFormatDirected(t *testing.T) {
 		{9.99, 2, "9.9", "10"}, {1.001, 3, "1", "1.01"}, {-1.001, 3, "-1.01", "-1"}, {0, 4, "0", "0"},
 		// float64(1e-5) is 1.00000000000000008e-05, just above 1e-5.
 		{math.Inf(1), 3, "+Inf", "+Inf"}, {1e-5, 3, "1e-05", "1.01e-05"},
+		// One digit, where the nearest decimal is 10^k on the wrong side
+		// (found by an adversarial review: printed "0" before).
+		{0.96, 1, "0.9", "1"}, {9.5, 1, "9", "1e+01"}, {99999.5, 1, "9e+04", "1e+05"}, {-9.6e-05, 1, "-0.0001", "-9e-05"},
 	} {
 		if lo, hi := FormatDown(c.v, c.d), FormatUp(c.v, c.d); lo != c.lo || hi != c.hi {
 			t.Errorf("%v, %d digits: [%s, %s], want [%s, %s] (derived by hand)", c.v, c.d, lo, hi, c.lo, c.hi)
