@@ -277,7 +277,7 @@ func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace
 	case errors.Is(terr, subspace.ErrDependent):
 		kept, left := w.RankGap()
 		in.Note = fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
-			w.Dim(), w.Tol(), kept, left)
+			w.Dim(), w.RankTol(), kept, left)
 	default:
 		in.Note = "not proven (" + terr.Error() + "): the interval holds for the stored basis only"
 	}

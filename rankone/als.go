@@ -21,9 +21,9 @@ import (
 type ALS struct {
 	// MaxIter bounds the iterations (one x and one y update each); zero means 500.
 	MaxIter int
-	// Tol stops the method when the Riemannian gradient norm of h falls to
-	// Tol; zero means 1e-12.
-	Tol float64
+	// GradTol stops the method when the Riemannian gradient norm of h falls to
+	// GradTol; zero means 1e-12.
+	GradTol float64
 	// Progress, if set, is called at most every 200 ms.
 	Progress func(Progress)
 }
@@ -43,7 +43,7 @@ func (a *ALS) Search(ctx context.Context, w *subspace.Subspace) (Result, error) 
 func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
 	o := &oracle{w: w}
 	maxIter := orDefault(a.MaxIter, 500)
-	tol := orDefaultF(a.Tol, 1e-12)
+	tol := orDefaultF(a.GradTol, 1e-12)
 	gate := NewThrottle(a.Progress)
 	gx, hy := make([]float64, len(x)), make([]float64, len(y))
 	st := Stats{Status: LimitReached}

@@ -45,7 +45,7 @@ var (
 //     variety P¹×P^{n−1} is n).
 //
 // Every point is then polished by alternating maximisation and certified by
-// Verify; Upper ≤ Tol is required. The list is complete when the hypotheses
+// Verify; Upper ≤ AcceptTol is required. The list is complete when the hypotheses
 // hold (which is checked numerically: rank of the column and row spaces,
 // real and separated eigenvalues, distinct points); when they fail, an
 // error says which, and any points returned still carry valid Upper bounds.
@@ -54,9 +54,9 @@ var (
 type AllPoints struct {
 	// Seed seeds the random elements of W.
 	Seed uint64
-	// Tol is the largest certified distance accepted for a point; zero
+	// AcceptTol is the largest certified distance accepted for a point; zero
 	// means 1e-8.
-	Tol float64
+	AcceptTol float64
 	// Tries is the number of random draws before giving up on degenerate
 	// eigenvalues; zero means 3.
 	Tries int
@@ -64,7 +64,7 @@ type AllPoints struct {
 	// dim W (data perturbed by noise): the leading ones are used, complex
 	// eigenvalue pairs contribute the real and imaginary parts of their
 	// eigenvector, coinciding points are kept, the points are approximations,
-	// and those farther than Tol from W are reported with ErrNotRankOne.
+	// and those farther than AcceptTol from W are reported with ErrNotRankOne.
 	// False (the default) refuses all of these.
 	Noisy bool
 }
@@ -99,7 +99,7 @@ func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 // Points returns all rank-one points of W, best first (see AllPoints).
 func (a *AllPoints) Points(ctx context.Context, w *subspace.Subspace) ([]Point, error) {
 	m, n, r := w.Rows(), w.Cols(), w.Dim()
-	tol := orDefaultF(a.Tol, 1e-8)
+	tol := orDefaultF(a.AcceptTol, 1e-8)
 	tries := orDefault(a.Tries, 3)
 	var lastErr error
 	for try := 0; try < tries; try++ {

@@ -20,9 +20,9 @@ import (
 type Power struct {
 	// MaxIter bounds the iterations (one x and one y step each); zero means 5000.
 	MaxIter int
-	// Tol stops the method when the Riemannian gradient norm of h falls to
-	// Tol; zero means 1e-12.
-	Tol float64
+	// GradTol stops the method when the Riemannian gradient norm of h falls to
+	// GradTol; zero means 1e-12.
+	GradTol float64
 	// Progress, if set, is called at most every 200 ms.
 	Progress func(Progress)
 }
@@ -42,7 +42,7 @@ func (p *Power) Search(ctx context.Context, w *subspace.Subspace) (Result, error
 func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
 	o := &oracle{w: w}
 	maxIter := orDefault(p.MaxIter, 5000)
-	tol := orDefaultF(p.Tol, 1e-12)
+	tol := orDefaultF(p.GradTol, 1e-12)
 	gate := NewThrottle(p.Progress)
 	gx, gy := make([]float64, len(x)), make([]float64, len(y))
 	st := Stats{Status: LimitReached}

@@ -32,9 +32,9 @@ type TrustRegion struct {
 	// MaxInner bounds the conjugate-gradient steps per iteration; zero means
 	// min(m+n, 50).
 	MaxInner int
-	// Tol stops the method when the Riemannian gradient norm falls to Tol;
+	// GradTol stops the method when the Riemannian gradient norm falls to GradTol;
 	// zero means 1e-12.
-	Tol float64
+	GradTol float64
 	// Progress, if set, is called at most every 200 ms.
 	Progress func(Progress)
 }
@@ -132,7 +132,7 @@ func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []f
 	m, n := len(x), len(y)
 	maxIter := orDefault(t.MaxIter, 200)
 	maxInner := orDefault(t.MaxInner, min(m+n, 50))
-	tol := orDefaultF(t.Tol, 1e-12)
+	tol := orDefaultF(t.GradTol, 1e-12)
 	gate := NewThrottle(t.Progress)
 	const deltaMax = 2.0
 	delta := deltaMax / 8

@@ -130,7 +130,7 @@ func TestInputDistanceBoundsTruth(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			w, err := New(context.Background(), c.b, Options{Tol: 1e-16})
+			w, err := New(context.Background(), c.b, Options{RankTol: 1e-16})
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -252,8 +252,8 @@ func TestNewBadInput(t *testing.T) {
 		{"all-zero", Basis{Count: 2, Rows: 1, Cols: 2, Data: []float64{0, 0, 0, 0}}, Options{}, ErrZero},
 		{"too-large", ok, Options{MaxBytes: 16}, ErrTooLarge},
 		{"overflow", Basis{Count: math.MaxInt / 2, Rows: 4, Cols: 4}, Options{}, ErrTooLarge},
-		{"bad-tol", ok, Options{Tol: -1}, ErrOption},
-		{"nan-tol", ok, Options{Tol: math.NaN()}, ErrOption},
+		{"bad-tol", ok, Options{RankTol: -1}, ErrOption},
+		{"nan-tol", ok, Options{RankTol: math.NaN()}, ErrOption},
 		{"bad-maxbytes", ok, Options{MaxBytes: -1}, ErrOption},
 	}
 	for _, c := range cases {

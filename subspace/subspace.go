@@ -64,13 +64,13 @@ func (b Basis) Matrix(t int) []float64 {
 
 // Options configures New. The zero value gives the defaults.
 type Options struct {
-	// Tol is the rank tolerance. Every input matrix is first scaled to unit
+	// RankTol is the rank tolerance. Every input matrix is first scaled to unit
 	// Frobenius norm; pivoted QR then stops when every remaining matrix lies
-	// within Frobenius distance Tol of the span of those already chosen.
+	// within Frobenius distance RankTol of the span of those already chosen.
 	// Zero means max(m·n, r)·2^-52, the usual rule for numerical rank
 	// (common practice: NumPy's matrix_rank and LAPACK-based codes use
-	// σ_max·max(M, N)·eps). Tol must be in [0, 1).
-	Tol float64
+	// σ_max·max(M, N)·eps). RankTol must be in [0, 1).
+	RankTol float64
 	// MaxBytes limits the working storage New may allocate; inputs that
 	// would need more are refused with ErrTooLarge before any allocation.
 	// The Subspace keeps it as its MemoryLimit: derived structures (the
@@ -112,8 +112,8 @@ func (w *Subspace) Cols() int { return w.n }
 // Dim returns the numerical dimension k of W.
 func (w *Subspace) Dim() int { return w.k }
 
-// Tol returns the rank tolerance that was used.
-func (w *Subspace) Tol() float64 { return w.tol }
+// RankTol returns the rank tolerance that was used.
+func (w *Subspace) RankTol() float64 { return w.tol }
 
 // Inputs returns how many matrices were given and how many of them were
 // exactly zero (and so contributed nothing).
@@ -125,7 +125,7 @@ func (w *Subspace) StoresComplement() bool { return w.comp }
 
 // BackwardError returns the relative reconstruction error
 // ‖B̂Π − QR‖_F/‖B̂‖_F of the pivoted QR of the unit-normalised input B̂ (it is
-// at most about Tol·√r plus rounding), and the computed ‖SSᵀ − I‖_F of the
+// at most about RankTol·√r plus rounding), and the computed ‖SSᵀ − I‖_F of the
 // stored vectors S.
 func (w *Subspace) BackwardError() (reconstruction, orthogonality float64) {
 	return w.recon, w.orthFl
@@ -134,7 +134,7 @@ func (w *Subspace) BackwardError() (reconstruction, orthogonality float64) {
 // RankGap describes the rank decision of the pivoted QR of the
 // unit-normalised inputs: the size |R_kk| of the last pivot kept and the
 // norm of the first column left out (0 when every nonzero input was kept;
-// it was at most Tol). A wide gap (kept ≫ left) means a clear decision.
+// it was at most RankTol). A wide gap (kept ≫ left) means a clear decision.
 // These are floating-point estimates, not certified.
 func (w *Subspace) RankGap() (kept, left float64) { return w.rankKept, w.rankLeft }
 
@@ -148,8 +148,8 @@ func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 // for inputs of tens of megabytes) and returns ctx.Err(), wrapped, when it
 // is done first; nothing is kept then.
 func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
-	if opt.Tol < 0 || opt.Tol >= 1 || math.IsNaN(opt.Tol) {
-		return nil, fmt.Errorf("%w: Tol = %v, want 0 ≤ Tol < 1", ErrOption, opt.Tol)
+	if opt.RankTol < 0 || opt.RankTol >= 1 || math.IsNaN(opt.RankTol) {
+		return nil, fmt.Errorf("%w: RankTol = %v, want 0 ≤ RankTol < 1", ErrOption, opt.RankTol)
 	}
 	if opt.MaxBytes < 0 {
 		return nil, fmt.Errorf("%w: MaxBytes = %d is negative", ErrOption, opt.MaxBytes)
@@ -182,7 +182,7 @@ func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 			return nil, fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/n, rem%n, v)
 		}
 	}
-	tol := opt.Tol
+	tol := opt.RankTol
 	if tol == 0 {
 		tol = float64(max(L, r)) * 0x1p-52
 		if tol >= 0.5 {

@@ -167,7 +167,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
 	opt := segre.Options{Budget: c.budget, Gap: c.gap, Starts: c.starts, Seed: c.seed,
-		Subspace: subspace.Options{Tol: c.tol, MaxBytes: c.maxBytes}}
+		Subspace: subspace.Options{RankTol: c.tol, MaxBytes: c.maxBytes}}
 	var pr *progressLine
 	if !c.quiet && (!c.asJSON || c.progress) {
 		pr = &progressLine{out: stderr}
@@ -304,7 +304,7 @@ type jsonOut struct {
 func writeJSON(stdout io.Writer, w *subspace.Subspace, rep segre.Report, source string) error {
 	given, _ := w.Inputs()
 	rec, _ := w.BackwardError()
-	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: number(w.Tol()),
+	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: number(w.RankTol()),
 		StoresComplement: w.StoresComplement(), Reconstruction: number(rec), Orthogonality: number(w.OrthogonalityBound()),
 		Lower: number(rep.Lower), Upper: number(rep.Upper), ValueLower: number(rep.ValueLower), ValueUpper: number(rep.ValueUpper),
 		Gap: number(rep.Gap), X: rep.X, Y: rep.Y,
@@ -340,7 +340,7 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 	if zeros > 0 {
 		fmt.Fprintf(out, " (%d zero)", zeros)
 	}
-	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.Dim(), w.Tol(), stored)
+	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.Dim(), w.RankTol(), stored)
 	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
 	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(rep.Lower, 10), up(rep.Upper, 10))
 	if in := rep.Input; in != nil && in.Proven {

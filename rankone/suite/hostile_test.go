@@ -177,7 +177,7 @@ func TestHostileSubspaces(t *testing.T) {
 	}
 }
 
-// The rank decision keeps the promise of Options.Tol: a matrix within Tol
+// The rank decision keeps the promise of Options.RankTol: a matrix within Tol
 // of the span of the others is dropped, one farther is kept. The pair
 // {A, A + εC} with A ⊥ C of equal norm, once normalised, has the second
 // matrix at distance ε/√(1+ε²) ≈ ε from span{A} (derived), here ε = 2^-40.
@@ -188,7 +188,7 @@ func TestRankTolerancePromise(t *testing.T) {
 		tol float64
 		dim int
 	}{{0, 2}, {1e-13, 2}, {8e-13, 2}, {1e-12, 1}, {1e-11, 1}} {
-		w, err := subspace.New(context.Background(), b, subspace.Options{Tol: tc.tol})
+		w, err := subspace.New(context.Background(), b, subspace.Options{RankTol: tc.tol})
 		if err != nil {
 			t.Fatal(err)
 		}

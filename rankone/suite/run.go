@@ -34,7 +34,7 @@ type Record struct {
 	Evals    int     `json:"evaluations"`
 	Success  bool    `json:"success"`
 	// Points counts the distinct certified rank-one points found (Upper ≤
-	// Tol), for searchers that report all their points (a SearchAll method
+	// SuccessTol), for searchers that report all their points (a SearchAll method
 	// like rankone.MultiStart's, or rankone.AllPoints); -1 otherwise.
 	Points int    `json:"points"`
 	Error  string `json:"error,omitempty"`
@@ -56,10 +56,11 @@ func (n *Number) UnmarshalJSON(b []byte) error {
 
 // Settings configures Run. The zero value gives the defaults.
 type Settings struct {
-	// Tol is the success tolerance on d: Upper ≤ d* + Tol when d* is known,
-	// else Upper ≤ (best Upper of any searcher on the instance) + Tol.
+	// SuccessTol is the success tolerance on d: Upper ≤ d* + SuccessTol when
+	// d* is known, else Upper ≤ (best Upper of any searcher on the instance)
+	// + SuccessTol.
 	// Zero means 1e-8.
-	Tol float64
+	SuccessTol float64
 	// Budget is the time allowed for each run; zero means no limit.
 	Budget time.Duration
 	// Shard and Shards select the Shard-th (0-based) of Shards disjoint
@@ -83,7 +84,7 @@ func Run(ctx context.Context, searchers []Named, instances []Instance, set Setti
 	if set.Shard < 0 || set.Shard >= shards {
 		return fmt.Errorf("suite: shard %d of %d", set.Shard, shards)
 	}
-	tol := set.Tol
+	tol := set.SuccessTol
 	if tol <= 0 {
 		tol = 1e-8
 	}
