@@ -167,13 +167,17 @@ func (cl *cell) children() []*cell {
 
 // Search implements rankone.Searcher.
 func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	if err := rankone.CheckSettings("BranchBound", []rankone.Setting{{Name: "Gap", Value: b.Gap}, {Name: "AbsGap", Value: b.AbsGap},
+		{Name: "MaxNodes", Value: float64(b.MaxNodes)}, {Name: "MaxFrontier", Value: float64(b.MaxFrontier)}, {Name: "Workers", Value: float64(b.Workers)}}...); err != nil {
+		return rankone.TrivialResult(w, b.Name()), err
+	}
 	begin := time.Now()
 	gap := b.Gap
 	if gap == 0 {
 		gap = 1e-6
 	}
 	if !(gap > 0 && gap < 1) {
-		return rankone.Result{}, fmt.Errorf("net: Gap = %v, want 0 < Gap < 1", gap)
+		return rankone.TrivialResult(w, b.Name()), fmt.Errorf("%w: BranchBound.Gap = %v, want 0 < Gap < 1", rankone.ErrOption, gap)
 	}
 	maxNodes := b.MaxNodes
 	if maxNodes <= 0 {
@@ -263,7 +267,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 	}
 	rekey := func(c *cell) { c.key, c.lam = cellBound(c.fbar, c.r, lam), lam }
 	status := rankone.LimitReached
-	why := "" // why a search that did not reach its gap stopped
+	limit := rankone.NoLimit // which budget stopped a search that did not reach its gap
 	if d == 1 {
 		// S^0 is the point ±1: s(1)² is the exact answer, no cells needed.
 		c := &cell{face: 0}
@@ -271,7 +275,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		eval([]*cell{c}, vecs)
 		if ctx.Err() != nil {
 			// The cell may be unevaluated: keep the flattening's lam.
-			status, why = rankone.Cancelled, "deadline or cancellation"
+			status = rankone.Cancelled
 		} else {
 			nodes = 1
 			lam = math.Min(lam, c.fbar)
@@ -309,7 +313,7 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			vecs := make([][]float64, len(pending))
 			eval(pending, vecs)
 			if ctx.Err() != nil {
-				status, why = rankone.Cancelled, "deadline or cancellation"
+				status = rankone.Cancelled
 				break
 			}
 			nodes += len(pending)
@@ -393,15 +397,15 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 				break
 			}
 			if ctx.Err() != nil {
-				status, why = rankone.Cancelled, "deadline or cancellation"
+				status = rankone.Cancelled
 				break
 			}
 			if nodes >= maxNodes {
-				why = "node limit"
+				limit = rankone.NodeLimit
 				break
 			}
 			if len(front) >= maxFront {
-				why = "frontier limit"
+				limit = rankone.FrontierLimit
 				break
 			}
 			// Next batch: pop the best cells; re-bound with the current Λ.
@@ -437,13 +441,13 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 		}
 	}
 	res.Status = status
+	if status == rankone.LimitReached {
+		res.Limit = limit
+	}
 	res.Evaluations += nodes
 	if lo := rankone.DistanceLower(lam); lo > 0 {
 		res.Lower = lo
 		res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells)", nodes)
-		if why != "" {
-			res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells; stopped at the %s)", nodes, why)
-		}
 	}
 	res.Elapsed = time.Since(begin)
 	if err := ctx.Err(); err != nil {

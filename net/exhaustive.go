@@ -37,18 +37,22 @@ type Exhaustive struct {
 
 var _ rankone.Searcher = (*Exhaustive)(nil)
 
-// Name returns "net".
-func (e *Exhaustive) Name() string { return "net" }
+// Name returns "exhaustive sphere net".
+func (e *Exhaustive) Name() string { return "exhaustive sphere net" }
 
 // Search implements rankone.Searcher.
 func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	if err := rankone.CheckSettings("Exhaustive", []rankone.Setting{{Name: "Epsilon", Value: e.Epsilon},
+		{Name: "MaxPoints", Value: float64(e.MaxPoints)}, {Name: "Workers", Value: float64(e.Workers)}}...); err != nil {
+		return rankone.TrivialResult(w, e.Name()), err
+	}
 	begin := time.Now()
 	eps := e.Epsilon
 	if eps == 0 {
 		eps = 0.05
 	}
 	if !(eps > 0 && eps < 1) {
-		return rankone.Result{}, fmt.Errorf("net: Epsilon = %v, want 0 < ε < 1", eps)
+		return rankone.TrivialResult(w, e.Name()), fmt.Errorf("%w: Exhaustive.Epsilon = %v, want 0 < ε < 1", rankone.ErrOption, eps)
 	}
 	limit := e.MaxPoints
 	if limit <= 0 {
@@ -59,7 +63,7 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 	eps = CoveringRadius(sd.d, N)
 	total := NetSize(sd.d, N, limit)
 	if total < 0 {
-		return rankone.Result{}, fmt.Errorf("%w: a net of radius %v on S^%d has more than %d points", ErrTooLarge, eps, sd.d-1, limit)
+		return rankone.TrivialResult(w, e.Name()), fmt.Errorf("%w: a net of radius %v on S^%d has more than %d points", ErrTooLarge, eps, sd.d-1, limit)
 	}
 	workers := e.Workers
 	if workers <= 0 {

@@ -41,6 +41,9 @@ func (a *ALS) Search(ctx context.Context, w *subspace.Subspace) (Result, error) 
 
 // Refine implements Local.
 func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
+	if err := a.check(); err != nil {
+		return Stats{}, err
+	}
 	o := &oracle{w: w}
 	maxIter := orDefault(a.MaxIter, 500)
 	tol := orDefaultF(a.GradTol, 1e-12)
@@ -70,4 +73,8 @@ func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) 
 	st.Value = h
 	st.Evaluations = o.evals
 	return st, nil
+}
+
+func (a *ALS) check() error {
+	return CheckSettings("ALS", []Setting{{"MaxIter", float64(a.MaxIter)}, {"GradTol", float64(a.GradTol)}}...)
 }

@@ -2,7 +2,9 @@ package rankone
 
 import (
 	"context"
+	"fmt"
 	"math"
+	"strconv"
 	"runtime"
 	"sync"
 	"sync/atomic"
@@ -131,6 +133,57 @@ func ParallelFor(ctx context.Context, n, workers int, body func(worker, i int)) 
 	wg.Wait()
 	if skipped.Load() {
 		return ctx.Err()
+	}
+	return nil
+}
+
+// Limit names the budget that ended a search (Result.Limit).
+type Limit int
+
+// The limits.
+const (
+	NoLimit        Limit = iota
+	IterationLimit       // a local method's or a solver's iteration cap
+	NodeLimit            // branch-and-bound's cell budget (MaxNodes)
+	FrontierLimit        // branch-and-bound's frontier cap (MaxFrontier or the memory limit)
+	TimeLimit            // a strategy's own time budget (Portfolio.Budget)
+)
+
+var limitNames = [...]string{"", "iteration limit", "node limit", "frontier limit", "time limit"}
+
+func (l Limit) String() string {
+	if l >= 0 && int(l) < len(limitNames) {
+		return limitNames[l]
+	}
+	return "Limit(" + strconv.Itoa(int(l)) + ")"
+}
+
+// Setting is a named numeric setting, for CheckSettings.
+type Setting struct {
+	Name  string
+	Value float64
+}
+
+// CheckSettings applies the rule for settings (see the package doc): it
+// returns an error wrapping ErrOption that names the first negative or NaN
+// setting of the strategy, or nil.
+func CheckSettings(strategy string, settings ...Setting) error {
+	for _, s := range settings {
+		if s.Value < 0 || math.IsNaN(s.Value) {
+			return fmt.Errorf("%w: %s.%s = %v is negative (zero means the default)", ErrOption, strategy, s.Name, s.Value)
+		}
+	}
+	return nil
+}
+
+// settingsChecker is implemented by the strategies of this module.
+type settingsChecker interface{ check() error }
+
+// checkOf checks s's settings when it is one of ours (a user's strategy
+// checks its own).
+func checkOf(s any) error {
+	if c, ok := s.(settingsChecker); ok {
+		return c.check()
 	}
 	return nil
 }

@@ -31,12 +31,18 @@ type Stats struct {
 // searchLocal runs l once from the spectral start, as a Searcher.
 func searchLocal(ctx context.Context, w *subspace.Subspace, l Local) (Result, error) {
 	start := time.Now()
+	if err := checkOf(l); err != nil {
+		return TrivialResult(w, l.Name()), err
+	}
 	o := &oracle{w: w}
 	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
 	spectralStart(o, x, y)
 	st, err := l.Refine(ctx, w, x, y)
 	res := Result{X: x, Y: y, FoundBy: l.Name(), Value: st.Value, Status: st.Status,
 		Iterations: st.Iterations, Evaluations: st.Evaluations + o.evals, Starts: 1}
+	if st.Status == LimitReached {
+		res.Limit = IterationLimit
+	}
 	finish(w, &res, start)
 	if cerr := ctx.Err(); cerr != nil {
 		res.Status, err = Cancelled, cerr

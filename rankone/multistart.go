@@ -76,6 +76,12 @@ type startOut struct {
 func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Result, []Point, error) {
 	begin := time.Now()
 	l := ms.method()
+	if err := ms.check(); err != nil {
+		return TrivialResult(w, ms.Name()), nil, err
+	}
+	if err := checkOf(l); err != nil {
+		return TrivialResult(w, ms.Name()), nil, err
+	}
 	starts := orDefault(ms.Starts, 16)
 	workers := ms.Workers
 	if workers <= 0 {
@@ -140,7 +146,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		res.X, res.Y, res.Upper = TrivialWitness(w)
 	}
 	if !allOK {
-		res.Status = LimitReached
+		res.Status, res.Limit = LimitReached, IterationLimit
 	}
 	sortPoints(pts)
 	res.Elapsed = time.Since(begin)
@@ -239,4 +245,8 @@ func topSingularPair(a []float64, m, n int, x, y []float64, rng *rand.Rand) {
 	} else {
 		copy(y, unitVec(n))
 	}
+}
+
+func (ms *MultiStart) check() error {
+	return CheckSettings("MultiStart", []Setting{{"Starts", float64(ms.Starts)}, {"Workers", float64(ms.Workers)}}...)
 }

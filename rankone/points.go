@@ -77,6 +77,9 @@ func (a *AllPoints) Name() string { return "all-points" }
 // Search returns the best of the points as a Result (d* = 0 in exact
 // arithmetic when points exist).
 func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, error) {
+	if err := a.check(); err != nil {
+		return TrivialResult(w, a.Name()), err
+	}
 	begin := time.Now()
 	pts, err := a.Points(ctx, w)
 	res := Result{FoundBy: a.Name(), Status: Converged, Starts: len(pts)}
@@ -98,6 +101,9 @@ func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 
 // Points returns all rank-one points of W, best first (see AllPoints).
 func (a *AllPoints) Points(ctx context.Context, w *subspace.Subspace) ([]Point, error) {
+	if err := a.check(); err != nil {
+		return nil, err
+	}
 	m, n, r := w.Rows(), w.Cols(), w.Dim()
 	tol := orDefaultF(a.AcceptTol, 1e-8)
 	tries := orDefault(a.Tries, 3)
@@ -386,4 +392,8 @@ func certifyPoints(ctx context.Context, w *subspace.Subspace, dirs [][]float64, 
 	}
 	sortPoints(pts)
 	return pts, bad
+}
+
+func (a *AllPoints) check() error {
+	return CheckSettings("AllPoints", []Setting{{"AcceptTol", float64(a.AcceptTol)}, {"Tries", float64(a.Tries)}}...)
 }

@@ -67,6 +67,9 @@ func (p *Portfolio) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 // order.
 func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Result, []Entry, error) {
 	begin := time.Now()
+	if err := p.check(); err != nil {
+		return TrivialResult(w, p.Name()), nil, err
+	}
 	members := p.Members
 	if members == nil {
 		members = DefaultMembers()
@@ -120,6 +123,9 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 		}
 		if e.Err != nil || !r.Status.Success() {
 			res.Status = LimitReached
+			if res.Limit == NoLimit {
+				res.Limit = r.Limit
+			}
 		}
 	}
 	if !found {
@@ -131,7 +137,11 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 		return res, entries, err
 	}
 	if rctx.Err() != nil {
-		res.Status = LimitReached // the portfolio's own budget ran out
+		res.Status, res.Limit = LimitReached, TimeLimit // the portfolio's own budget ran out
 	}
 	return res, entries, nil
+}
+
+func (p *Portfolio) check() error {
+	return CheckSettings("Portfolio", []Setting{{"Budget", float64(p.Budget.Seconds())}}...)
 }

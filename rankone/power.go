@@ -40,6 +40,9 @@ func (p *Power) Search(ctx context.Context, w *subspace.Subspace) (Result, error
 
 // Refine implements Local.
 func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
+	if err := p.check(); err != nil {
+		return Stats{}, err
+	}
 	o := &oracle{w: w}
 	maxIter := orDefault(p.MaxIter, 5000)
 	tol := orDefaultF(p.GradTol, 1e-12)
@@ -80,4 +83,8 @@ func (p *Power) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64
 	st.Value = h
 	st.Evaluations = o.evals
 	return st, nil
+}
+
+func (p *Power) check() error {
+	return CheckSettings("Power", []Setting{{"MaxIter", float64(p.MaxIter)}, {"GradTol", float64(p.GradTol)}}...)
 }

@@ -10,6 +10,13 @@
 // returned witness; Lower is 0 unless the strategy proves something, and
 // LowerBy names the argument.
 //
+// Settings. Every strategy is a struct of settings with one rule, the same
+// in every package of the module: zero means the documented default (which
+// may be "no limit" where a field says so), and a negative or NaN value is
+// an error: Search returns the trivial Result and an error wrapping
+// ErrOption (see CheckSettings). A user's strategy keeps the rule by
+// calling CheckSettings first.
+//
 // Contracts. Inputs are never modified. Search methods take a context; a
 // cancelled or expired context makes them return promptly with the best
 // valid bounds found so far, status Cancelled, and ctx.Err(). Strategies are
@@ -77,6 +84,9 @@ type Result struct {
 	Value float64
 	// Status says how the search ended.
 	Status Status
+	// Limit says which budget ended a search with Status LimitReached
+	// (NoLimit otherwise).
+	Limit Limit
 	// Iterations counts iterations of the local method(s), Evaluations the
 	// calls of subspace contractions (each about one pass over the stored
 	// basis), Starts the starting points tried.
@@ -115,6 +125,9 @@ var (
 	ErrLength    = errors.New("rankone: vector has the wrong length")
 	ErrNotFinite = errors.New("rankone: vector has a NaN or infinite entry")
 	ErrZeroVec   = errors.New("rankone: vector is zero")
+	// ErrOption reports a setting that breaks the rule for settings: zero
+	// means the documented default, a negative (or NaN) value is an error.
+	ErrOption = errors.New("rankone: invalid setting")
 )
 
 // Verify returns a certified upper bound on d(x/‖x‖, y/‖y‖) for the stored

@@ -128,6 +128,9 @@ func project(v, x []float64) {
 
 // Refine implements Local.
 func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
+	if err := t.check(); err != nil {
+		return Stats{}, err
+	}
 	o := &oracle{w: w}
 	m, n := len(x), len(y)
 	maxIter := orDefault(t.MaxIter, 200)
@@ -264,4 +267,8 @@ func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []f
 	st.Value = cur.h
 	st.Evaluations = o.evals
 	return st, nil
+}
+
+func (t *TrustRegion) check() error {
+	return CheckSettings("TrustRegion", []Setting{{"MaxIter", float64(t.MaxIter)}, {"MaxInner", float64(t.MaxInner)}, {"GradTol", float64(t.GradTol)}}...)
 }

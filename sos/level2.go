@@ -255,6 +255,9 @@ func (l *LevelTwo) Name() string { return "sos level 2" }
 
 // Search implements rankone.Searcher.
 func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	if err := rankone.CheckSettings("LevelTwo", rankone.Setting{Name: "MaxIter", Value: float64(l.MaxIter)}); err != nil {
+		return rankone.TrivialResult(w, l.Name()), err
+	}
 	begin := time.Now()
 	m, n := w.Rows(), w.Cols()
 	res := startResult(w, l.Name())
@@ -269,7 +272,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 	}
 	res.Iterations = sol.Iterations
 	if sol.Status != sdp.Optimal {
-		res.Status = rankone.LimitReached
+		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
 	}
 	// K = −Σ_{j≥1} y_j A_j (the dual: y₀D + Σ y_jA_j − Ĉ ⪰ 0).
 	dim := e.dim

@@ -216,6 +216,9 @@ func (b *Bound) Name() string { return "sos level 1" }
 
 // Search implements rankone.Searcher.
 func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
+	if err := rankone.CheckSettings("Bound", rankone.Setting{Name: "MaxIter", Value: float64(b.MaxIter)}); err != nil {
+		return rankone.TrivialResult(w, b.Name()), err
+	}
 	begin := time.Now()
 	m, n := w.Rows(), w.Cols()
 	res := startResult(w, b.Name())
@@ -236,7 +239,7 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	}
 	res.Iterations = sol.Iterations
 	if sol.Status != sdp.Optimal {
-		res.Status = rankone.LimitReached
+		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
 	}
 	if hb, verr := Verify(w, rel.Certificate(sol.Y)); verr == nil {
 		if lo := rankone.DistanceLower(hb); lo > 0 {
