@@ -4,8 +4,8 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"strconv"
 	"runtime"
+	"strconv"
 	"sync"
 	"sync/atomic"
 
