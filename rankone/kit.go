@@ -187,3 +187,12 @@ func checkOf(s any) error {
 	}
 	return nil
 }
+
+// FormatLower writes a certified lower end with at most digits significant
+// digits (%g style), rounded down, so that the printed number is still a
+// lower bound; FormatUpper rounds up. Printing a certified number with %g
+// rounds to nearest and can cross the value it bounds.
+func FormatLower(v float64, digits int) string { return accurate.FormatDown(v, digits) }
+
+// FormatUpper writes a certified upper end rounded up (see FormatLower).
+func FormatUpper(v float64, digits int) string { return accurate.FormatUp(v, digits) }
