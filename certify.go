@@ -109,14 +109,10 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	}
 	wg.Wait()
 
-	rep := Report{Upper: 1, Members: outs, Elapsed: time.Since(begin)}
-	found := false
+	entries := make([]rankone.Entry, len(outs))
 	for i := range outs {
 		o := &outs[i]
-		if o.Err != nil && !isContextErr(o.Err) {
-			continue // failed: contributes nothing
-		}
-		if o.Err != nil && ctx.Err() == nil {
+		if o.Err != nil && isContextErr(o.Err) && ctx.Err() == nil {
 			// Stopped by Certify itself (gap reached or budget spent):
 			// the result is valid, the error is ours, not the member's.
 			o.Stopped = m.met
@@ -125,23 +121,11 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 				o.Result.Status = rankone.LimitReached // the budget ran out
 			}
 		}
-		r := o.Result
-		if r.X != nil && (!found || r.Upper < rep.Upper) {
-			found = true
-			rep.X, rep.Y, rep.Upper = r.X, r.Y, r.Upper
-			rep.FoundBy = o.Name
-			if r.FoundBy != "" {
-				rep.FoundBy = r.FoundBy
-			}
-		}
-		if r.Lower > rep.Lower {
-			rep.Lower, rep.LowerBy = r.Lower, r.LowerBy
-		}
+		entries[i] = rankone.Entry{Name: o.Name, Result: o.Result, Err: o.Err}
 	}
-	if !found {
-		rep.X, rep.Y, rep.Upper = rankone.TrivialWitness(w)
-		rep.FoundBy = "trivial witness"
-	}
+	merged := rankone.Merge(w, entries)
+	rep := Report{Lower: merged.Lower, Upper: merged.Upper, X: merged.X, Y: merged.Y,
+		FoundBy: merged.FoundBy, LowerBy: merged.LowerBy, Members: outs, Elapsed: time.Since(begin)}
 	rep.ValueLower, rep.ValueUpper = rankone.Result{Lower: rep.Lower, Upper: rep.Upper}.ValueBounds()
 	rep.Gap = relGapUpper(rep.ValueLower, rep.ValueUpper)
 	switch {

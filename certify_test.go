@@ -14,14 +14,7 @@ import (
 	"github.com/segre-lab/segre/subspace"
 )
 
-func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace {
-	t.Helper()
-	w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return w
-}
+func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace { return suite.MustNew(t, in) }
 
 // With zero Options, Certify certifies the closed-form families to the
 // default gap, and the interval contains the known optimum (the suite's

@@ -69,14 +69,7 @@ func TestCoveringRadius(t *testing.T) {
 	}
 }
 
-func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace {
-	t.Helper()
-	w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return w
-}
+func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace { return suite.MustNew(t, in) }
 
 // The complement of the quaternion span in 4×4 (h ≡ 3/4, d* = 1/2, derived
 // in suite.NormedAlgebraComplement): local methods prove nothing, the net

@@ -2,6 +2,7 @@ package rankone
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"sync"
 	"time"
@@ -92,21 +93,63 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 			r, err := s.Search(rctx, w)
 			entries[i] = Entry{Name: NameOf(s), Result: r, Err: err}
 			mu.Lock()
-			if r.Upper < bestU {
-				bestU = r.Upper
-			}
-			if r.Lower > bestL {
-				bestL = r.Lower
+			if entries[i].Usable() {
+				if r.X != nil && r.Upper < bestU {
+					bestU = r.Upper
+				}
+				if r.Lower > bestL {
+					bestL = r.Lower
+				}
 			}
 			gate.Report(Progress{Searcher: p.Name(), Upper: bestU, Lower: bestL})
 			mu.Unlock()
 		}()
 	}
 	wg.Wait()
+	res := Merge(w, entries)
+	res.Elapsed = time.Since(begin)
+	if err := ctx.Err(); err != nil {
+		res.Status = Cancelled
+		return res, entries, err
+	}
+	if rctx.Err() != nil {
+		res.Status, res.Limit = LimitReached, TimeLimit // the portfolio's own budget ran out
+	}
+	return res, entries, nil
+}
+
+func (p *Portfolio) check() error {
+	return CheckSettings("Portfolio", []Setting{{"Budget", float64(p.Budget.Seconds())}}...)
+}
+
+// Usable reports whether the member's Result may enter a merge: it did not
+// fail (no error, or only the context's error, with which a Result is
+// still valid by the Searcher contract).
+func (e Entry) Usable() bool {
+	return e.Err == nil || errors.Is(e.Err, context.Canceled) || errors.Is(e.Err, context.DeadlineExceeded)
+}
+
+// Merge merges finished members' Results: the smallest Upper with its
+// witness (from a Result that has one), the largest Lower with its
+// argument, the counts summed; Status is Converged unless a member failed
+// or did not succeed (then LimitReached, with the first member's Limit). A
+// member that failed contributes nothing but its status. Without any
+// witness the trivial one is used. Both bounds are certified by their
+// members, so the merged interval is certified too.
+func Merge(w *subspace.Subspace, entries []Entry) Result {
 	res := Result{Upper: 1, Status: Converged}
 	found := false
 	for _, e := range entries {
 		r := e.Result
+		if !e.Usable() || !r.Status.Success() {
+			res.Status = LimitReached
+			if res.Limit == NoLimit {
+				res.Limit = r.Limit
+			}
+		}
+		if !e.Usable() {
+			continue
+		}
 		res.Iterations += r.Iterations
 		res.Evaluations += r.Evaluations
 		res.Starts += r.Starts
@@ -121,27 +164,10 @@ func (p *Portfolio) SearchEach(ctx context.Context, w *subspace.Subspace) (Resul
 		if r.Lower > res.Lower {
 			res.Lower, res.LowerBy = r.Lower, r.LowerBy
 		}
-		if e.Err != nil || !r.Status.Success() {
-			res.Status = LimitReached
-			if res.Limit == NoLimit {
-				res.Limit = r.Limit
-			}
-		}
 	}
 	if !found {
 		res.X, res.Y, res.Upper = TrivialWitness(w)
+		res.FoundBy = "trivial witness"
 	}
-	res.Elapsed = time.Since(begin)
-	if err := ctx.Err(); err != nil {
-		res.Status = Cancelled
-		return res, entries, err
-	}
-	if rctx.Err() != nil {
-		res.Status, res.Limit = LimitReached, TimeLimit // the portfolio's own budget ran out
-	}
-	return res, entries, nil
-}
-
-func (p *Portfolio) check() error {
-	return CheckSettings("Portfolio", []Setting{{"Budget", float64(p.Budget.Seconds())}}...)
+	return res
 }

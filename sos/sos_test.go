@@ -13,14 +13,7 @@ import (
 	"github.com/segre-lab/segre/subspace"
 )
 
-func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace {
-	t.Helper()
-	w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return w
-}
+func mustNew(t *testing.T, in suite.Instance) *subspace.Subspace { return suite.MustNew(t, in) }
 
 // Level one is exact on the antisymmetric subspace (h* = 1/2, with the
 // certificate ½(x·y)²: derived, P + K for K the T-antisymmetric part makes

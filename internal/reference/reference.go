@@ -96,3 +96,19 @@ func RandUnit(rng *rand.Rand, n int) []float64 {
 	}
 	return v
 }
+
+// RandOrthogonal returns a random n×n orthogonal matrix: the Q factor of
+// gonum's QR of a Gaussian matrix.
+func RandOrthogonal(rng *rand.Rand, n int) *mat.Dense {
+	g := mat.NewDense(n, n, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			g.Set(i, j, rng.NormFloat64())
+		}
+	}
+	var qr mat.QR
+	qr.Factorize(g)
+	var q mat.Dense
+	qr.QTo(&q)
+	return &q
+}

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/segre-lab/segre/internal/reference"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -41,20 +42,7 @@ func TestInverseNormUpper(t *testing.T) {
 }
 
 func withSingularValues(rng *rand.Rand, n int, cond float64) []float64 {
-	orth := func() *mat.Dense {
-		g := mat.NewDense(n, n, nil)
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				g.Set(i, j, rng.NormFloat64())
-			}
-		}
-		var qr mat.QR
-		qr.Factorize(g)
-		var q mat.Dense
-		qr.QTo(&q)
-		return &q
-	}
-	u, v := orth(), orth()
+	u, v := reference.RandOrthogonal(rng, n), reference.RandOrthogonal(rng, n)
 	d := mat.NewDense(n, n, nil)
 	for i := 0; i < n; i++ {
 		d.Set(i, i, math.Pow(cond, -float64(i)/float64(n-1)))

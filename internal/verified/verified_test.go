@@ -5,23 +5,15 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/segre-lab/segre/internal/reference"
 	"gonum.org/v1/gonum/mat"
 )
 
 func randSym(rng *rand.Rand, n int, eig []float64) *mat.SymDense {
 	// Q diag(eig) Qᵀ with Q from gonum's QR of a Gaussian matrix.
-	g := mat.NewDense(n, n, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			g.Set(i, j, rng.NormFloat64())
-		}
-	}
-	var qr mat.QR
-	qr.Factorize(g)
-	var q mat.Dense
-	qr.QTo(&q)
+	q := reference.RandOrthogonal(rng, n)
 	var a mat.Dense
-	a.Mul(&q, mat.NewDiagDense(n, eig))
+	a.Mul(q, mat.NewDiagDense(n, eig))
 	a.Mul(&a, q.T())
 	s := mat.NewSymDense(n, nil)
 	for i := 0; i < n; i++ {

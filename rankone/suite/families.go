@@ -11,9 +11,11 @@
 package suite
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"testing"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -469,4 +471,15 @@ func Sweep(short bool) []Instance {
 		}
 	}
 	return out
+}
+
+// MustNew builds the subspace of the instance with the default options,
+// for tests: it stops the test (tb.Fatal) if that fails.
+func MustNew(tb testing.TB, in Instance) *subspace.Subspace {
+	tb.Helper()
+	w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return w
 }
