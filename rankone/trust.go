@@ -50,47 +50,92 @@ func (t *TrustRegion) Search(ctx context.Context, w *subspace.Subspace) (Result,
 	return searchLocal(ctx, w, t)
 }
 
-// trPoint is a point with its gradient data.
-type trPoint struct {
-	x, y   []float64
-	gx, gy []float64 // Riemannian gradient of f = −h, tangent
-	mat    []float64 // M = P_W(x yᵀ)
-	h, f   float64   // h and f = d² (residual form)
+// Refine implements Local. Each outer iteration solves the trust-region
+// subproblem by truncated conjugate gradients (tcg), then tests the
+// candidate step (trRun.step); it stops when the gradient norm reaches
+// GradTol, at MaxIter, or when no more progress is possible in floating
+// point.
+func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
+	if err := t.check(); err != nil {
+		return Stats{}, err
+	}
+	m, n := len(x), len(y)
+	r := newTRRun(w, x, y, orDefault(t.MaxInner, min(m+n, 50)))
+	maxIter := orDefault(t.MaxIter, 200)
+	tol := orDefaultF(t.GradTol, 1e-12)
+	gate := NewThrottle(t.Progress)
+	st := Stats{Status: LimitReached}
+	defer func() {
+		copy(x, r.cur.pt.x)
+		copy(y, r.cur.pt.y)
+	}()
+	for it := 0; it < maxIter; it++ {
+		gn := math.Sqrt(pairDot(r.cur.grad, r.cur.grad))
+		st.Gradient = gn
+		st.Value = r.cur.h
+		gate.Report(Progress{Searcher: t.Name(), Iteration: it, Value: r.cur.h, Upper: 1})
+		if gn <= tol {
+			st.Status = Converged
+			break
+		}
+		if err := ctx.Err(); err != nil {
+			st.Status = Cancelled
+			st.Evaluations = r.o.evals
+			return st, err
+		}
+		st.Iterations = it + 1
+		r.cg.solve(ctx, r.o, r.cur, r.delta)
+		if !r.step() {
+			// No more progress is possible in floating point.
+			st.Status = floorStatus(gn)
+			break
+		}
+	}
+	st.Value = r.cur.h
+	st.Evaluations = r.o.evals
+	return st, nil
 }
 
-func (t *TrustRegion) eval(o *oracle, p *trPoint) {
-	m, n := len(p.x), len(p.y)
-	ex, ey := make([]float64, m), make([]float64, n)
-	p.h = o.Gradient(ex, ey, p.x, p.y, p.mat)
+// trPoint is a point of the sphere pair with its cost and gradient data.
+type trPoint struct {
+	pt   pair      // (x, y), unit
+	grad pair      // Riemannian gradient of f = −h, tangent
+	mat  []float64 // M = P_W(x yᵀ)
+	h, f float64   // h and f = d² (residual form)
+}
+
+func newTRPoint(m, n int) *trPoint {
+	return &trPoint{pt: newPair(m, n), grad: newPair(m, n), mat: make([]float64, m*n)}
+}
+
+// eval sets p's cost data at p.pt: h, ∇h and M from the oracle, f = d² as
+// the residual ‖x⊗y − M‖², and the Riemannian gradient of f = −h.
+func (p *trPoint) eval(o *oracle) {
+	x, y := p.pt.x, p.pt.y
+	m, n := len(x), len(y)
+	e := newPair(m, n) // ∇h
+	p.h = o.Gradient(e.x, e.y, x, y, p.mat)
 	var f float64
 	for i := 0; i < m; i++ {
 		for j := 0; j < n; j++ {
-			r := p.x[i]*p.y[j] - p.mat[i*n+j]
+			r := x[i]*y[j] - p.mat[i*n+j]
 			f += r * r
 		}
 	}
 	p.f = f
 	// grad f = −P(∇h)
-	cx, cy := dotv(ex, p.x), dotv(ey, p.y)
-	for i := range ex {
-		p.gx[i] = -(ex[i] - cx*p.x[i])
-	}
-	for j := range ey {
-		p.gy[j] = -(ey[j] - cy*p.y[j])
-	}
+	negGradient(p.grad, p.pt, e)
 }
 
-func newTRPoint(m, n int) *trPoint {
-	return &trPoint{x: make([]float64, m), y: make([]float64, n), gx: make([]float64, m),
-		gy: make([]float64, n), mat: make([]float64, m*n)}
-}
-
-// hess writes Hess f[(dx, dy)] at p into (hx, hy); u is scratch of length mn.
-func hess(o *oracle, p *trPoint, dx, dy, hx, hy, u []float64) {
-	m, n := len(p.x), len(p.y)
+// euclidHessian writes ∇²h[(dx, dy)] at p into hd; u is scratch of length
+// mn. With U = P_W(dx yᵀ + x dyᵀ): ∇²_x h = 2(M dy + U y) and
+// ∇²_y h = 2(Mᵀdx + Uᵀx).
+func euclidHessian(o *oracle, p *trPoint, d, hd pair, u []float64) {
+	x, y, dx, dy, hx, hy := p.pt.x, p.pt.y, d.x, d.y, hd.x, hd.y
+	m, n := len(x), len(y)
 	for i := 0; i < m; i++ {
 		for j := 0; j < n; j++ {
-			u[i*n+j] = dx[i]*p.y[j] + p.x[i]*dy[j]
+			u[i*n+j] = dx[i]*y[j] + x[i]*dy[j]
 		}
 	}
 	o.Project(u, u)
@@ -98,7 +143,7 @@ func hess(o *oracle, p *trPoint, dx, dy, hx, hy, u []float64) {
 	for i := 0; i < m; i++ {
 		var s float64
 		for j := 0; j < n; j++ {
-			s += p.mat[i*n+j]*dy[j] + u[i*n+j]*p.y[j]
+			s += p.mat[i*n+j]*dy[j] + u[i*n+j]*y[j]
 		}
 		hx[i] = 2 * s
 	}
@@ -106,167 +151,164 @@ func hess(o *oracle, p *trPoint, dx, dy, hx, hy, u []float64) {
 		hy[j] = 0
 	}
 	for i := 0; i < m; i++ {
-		a, b := dx[i], p.x[i]
+		a, b := dx[i], x[i]
 		row, urow := p.mat[i*n:(i+1)*n], u[i*n:(i+1)*n]
 		for j := 0; j < n; j++ {
 			hy[j] += 2 * (row[j]*a + urow[j]*b)
 		}
 	}
-	cx, cy := dotv(hx, p.x), dotv(hy, p.y)
-	for i := range hx {
-		hx[i] = -(hx[i] - cx*p.x[i]) + 2*p.h*dx[i]
-	}
-	for j := range hy {
-		hy[j] = -(hy[j] - cy*p.y[j]) + 2*p.h*dy[j]
+}
+
+// hess writes Hess f[d] at p into hd (f = −h, d tangent); u is scratch of
+// length mn. xᵀ∇_x h = yᵀ∇_y h = 2h because h is quadratic in each factor.
+func hess(o *oracle, p *trPoint, d, hd pair, u []float64) {
+	euclidHessian(o, p, d, hd, u)
+	negHessian(hd, p.pt, d, 2*p.h)
+}
+
+// tcg is the truncated conjugate-gradient method of Steihaug and Toint
+// with its workspace: at a point p it approximately minimises the model
+// m(η) = ⟨g, η⟩ + ½⟨η, Hess f η⟩ over tangent η with ‖η‖ ≤ Δ, where g is the
+// Riemannian gradient. It starts from η = 0 and stops on negative
+// curvature or at the boundary (stepping to ‖η‖ = Δ), when the residual
+// has fallen to ‖r₀‖·min(‖r₀‖, 0.1) (superlinear local convergence), after
+// maxInner steps, or when ctx is done.
+type tcg struct {
+	maxInner  int
+	eta, heta pair      // the step η and Hess f[η]
+	r         pair      // residual r = g + Hess f[η]
+	d, hd     pair      // CG direction d and Hess f[d]
+	u         []float64 // scratch of the Hessian, length mn
+}
+
+func newTCG(m, n, maxInner int) tcg {
+	return tcg{maxInner: maxInner, eta: newPair(m, n), heta: newPair(m, n), r: newPair(m, n),
+		d: newPair(m, n), hd: newPair(m, n), u: make([]float64, m*n)}
+}
+
+// solve leaves the step η in c.eta and Hess f[η] in c.heta.
+func (c *tcg) solve(ctx context.Context, o *oracle, p *trPoint, delta float64) {
+	// Truncated CG on the model ⟨g, η⟩ + ½⟨η, Hess η⟩, ‖η‖ ≤ Δ.
+	c.eta.zero()
+	c.heta.zero()
+	c.r.set(p.grad)
+	negate(c.d, c.r)
+	rr := pairDot(c.r, c.r)
+	r0 := math.Sqrt(rr)
+	for j := 0; j < c.maxInner; j++ {
+		if ctx.Err() != nil {
+			break
+		}
+		hess(o, p, c.d, c.hd, c.u)
+		kappa := pairDot(c.d, c.hd)
+		ee := pairDot(c.eta, c.eta)
+		ed := pairDot(c.eta, c.d)
+		ddn := pairDot(c.d, c.d)
+		alpha := rr / kappa
+		if kappa <= 0 || ee+2*alpha*ed+alpha*alpha*ddn >= delta*delta {
+			tau := boundaryStep(ee, ed, ddn, delta)
+			c.eta.addScaled(tau, c.d)
+			c.heta.addScaled(tau, c.hd)
+			break
+		}
+		c.eta.addScaled(alpha, c.d)
+		c.heta.addScaled(alpha, c.hd)
+		c.r.addScaled(alpha, c.hd)
+		projectTangent(c.r, p.pt)
+		rrNew := pairDot(c.r, c.r)
+		if math.Sqrt(rrNew) <= r0*math.Min(r0, 0.1) {
+			break
+		}
+		beta := rrNew / rr
+		rr = rrNew
+		// d ← −r + βd
+		for i := range c.d.x {
+			c.d.x[i] = -c.r.x[i] + beta*c.d.x[i]
+		}
+		for i := range c.d.y {
+			c.d.y[i] = -c.r.y[i] + beta*c.d.y[i]
+		}
 	}
 }
 
-func project(v, x []float64) {
-	c := dotv(v, x)
-	axpy(-c, x, v)
+// boundaryStep returns the τ > 0 with ‖η + τd‖ = Δ, given ee = ‖η‖² < Δ²,
+// ed = ⟨η, d⟩ and ddn = ‖d‖²: the positive root of
+// ddn·τ² + 2ed·τ + ee − Δ² = 0.
+func boundaryStep(ee, ed, ddn, delta float64) float64 {
+	// Step to the boundary along d: ‖η + τd‖ = Δ, τ > 0.
+	return (-ed + math.Sqrt(ed*ed+ddn*(delta*delta-ee))) / ddn
 }
 
-// Refine implements Local.
-func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
-	if err := t.check(); err != nil {
-		return Stats{}, err
+// negate sets dst = −a.
+func negate(dst, a pair) {
+	for i := range dst.x {
+		dst.x[i] = -a.x[i]
 	}
-	o := &oracle{w: w}
+	for j := range dst.y {
+		dst.y[j] = -a.y[j]
+	}
+}
+
+// trDeltaMax is the largest trust-region radius; runs start at trDeltaMax/8.
+const trDeltaMax = 2.0
+
+// trRun is the state of one Refine run: the current and candidate points,
+// the inner solver, the trust-region radius Δ and the count of consecutive
+// iterations without progress.
+type trRun struct {
+	o          *oracle
+	cur, cand  *trPoint
+	cg         tcg
+	delta      float64
+	noProgress int
+}
+
+// newTRRun starts a run at (x, y), evaluated.
+func newTRRun(w *subspace.Subspace, x, y []float64, maxInner int) *trRun {
 	m, n := len(x), len(y)
-	maxIter := orDefault(t.MaxIter, 200)
-	maxInner := orDefault(t.MaxInner, min(m+n, 50))
-	tol := orDefaultF(t.GradTol, 1e-12)
-	gate := NewThrottle(t.Progress)
-	const deltaMax = 2.0
-	delta := deltaMax / 8
+	r := &trRun{o: &oracle{w: w}, cur: newTRPoint(m, n), cand: newTRPoint(m, n),
+		cg: newTCG(m, n, maxInner), delta: trDeltaMax / 8}
+	copy(r.cur.pt.x, x)
+	copy(r.cur.pt.y, y)
+	r.cur.eval(r.o)
+	return r
+}
 
-	cur, cand := newTRPoint(m, n), newTRPoint(m, n)
-	copy(cur.x, x)
-	copy(cur.y, y)
-	t.eval(o, cur)
-	st := Stats{Status: LimitReached}
-	ex, ey := make([]float64, m), make([]float64, n) // step η
-	rx, ry := make([]float64, m), make([]float64, n) // residual r = g + Hη
-	dx, dy := make([]float64, m), make([]float64, n) // CG direction
-	hdx, hdy := make([]float64, m), make([]float64, n)
-	hex, hey := make([]float64, m), make([]float64, n) // Hη
-	u := make([]float64, m*n)
-	noProgress := 0
-	defer func() {
-		copy(x, cur.x)
-		copy(y, cur.y)
-	}()
-	for it := 0; it < maxIter; it++ {
-		gn := math.Sqrt(dotv(cur.gx, cur.gx) + dotv(cur.gy, cur.gy))
-		st.Gradient = gn
-		st.Value = cur.h
-		gate.Report(Progress{Searcher: t.Name(), Iteration: it, Value: cur.h, Upper: 1})
-		if gn <= tol {
-			st.Status = Converged
-			break
-		}
-		if err := ctx.Err(); err != nil {
-			st.Status = Cancelled
-			st.Evaluations = o.evals
-			return st, err
-		}
-		st.Iterations = it + 1
-		// Truncated CG on the model ⟨g, η⟩ + ½⟨η, Hess η⟩, ‖η‖ ≤ Δ.
-		clear(ex)
-		clear(ey)
-		clear(hex)
-		clear(hey)
-		copy(rx, cur.gx)
-		copy(ry, cur.gy)
-		for i := range dx {
-			dx[i] = -rx[i]
-		}
-		for j := range dy {
-			dy[j] = -ry[j]
-		}
-		rr := dotv(rx, rx) + dotv(ry, ry)
-		r0 := math.Sqrt(rr)
-		for j := 0; j < maxInner; j++ {
-			if ctx.Err() != nil {
-				break
-			}
-			hess(o, cur, dx, dy, hdx, hdy, u)
-			kappa := dotv(dx, hdx) + dotv(dy, hdy)
-			ee := dotv(ex, ex) + dotv(ey, ey)
-			ed := dotv(ex, dx) + dotv(ey, dy)
-			ddn := dotv(dx, dx) + dotv(dy, dy)
-			alpha := rr / kappa
-			if kappa <= 0 || ee+2*alpha*ed+alpha*alpha*ddn >= delta*delta {
-				// Step to the boundary along d: ‖η + τd‖ = Δ, τ > 0.
-				tau := (-ed + math.Sqrt(ed*ed+ddn*(delta*delta-ee))) / ddn
-				axpy(tau, dx, ex)
-				axpy(tau, dy, ey)
-				axpy(tau, hdx, hex)
-				axpy(tau, hdy, hey)
-				break
-			}
-			axpy(alpha, dx, ex)
-			axpy(alpha, dy, ey)
-			axpy(alpha, hdx, hex)
-			axpy(alpha, hdy, hey)
-			axpy(alpha, hdx, rx)
-			axpy(alpha, hdy, ry)
-			project(rx, cur.x)
-			project(ry, cur.y)
-			rrNew := dotv(rx, rx) + dotv(ry, ry)
-			if math.Sqrt(rrNew) <= r0*math.Min(r0, 0.1) {
-				break
-			}
-			beta := rrNew / rr
-			rr = rrNew
-			for i := range dx {
-				dx[i] = -rx[i] + beta*dx[i]
-			}
-			for i := range dy {
-				dy[i] = -ry[i] + beta*dy[i]
-			}
-		}
-		// Model decrease and the candidate R(η).
-		dec := -(dotv(cur.gx, ex) + dotv(cur.gy, ey) + 0.5*(dotv(ex, hex)+dotv(ey, hey)))
-		for i := range ex {
-			cand.x[i] = cur.x[i] + ex[i]
-		}
-		for j := range ey {
-			cand.y[j] = cur.y[j] + ey[j]
-		}
-		scale(cand.x, 1/norm(cand.x))
-		scale(cand.y, 1/norm(cand.y))
-		t.eval(o, cand)
-		step := math.Sqrt(dotv(ex, ex) + dotv(ey, ey))
-		rho := (cur.f - cand.f) / dec
-		if !(dec > 0) {
-			rho = -1
-		}
-		switch {
-		case rho < 0.25:
-			delta /= 4
-		case rho > 0.75 && step >= 0.99*delta:
-			delta = math.Min(2*delta, deltaMax)
-		}
-		if rho > 0.1 && cand.f <= cur.f {
-			if cand.f < cur.f*(1-1e-12) {
-				noProgress = 0
-			} else {
-				noProgress++
-			}
-			cur, cand = cand, cur
-		} else {
-			noProgress++
-		}
-		if delta < 1e-15 || noProgress >= 10 {
-			// No more progress is possible in floating point.
-			st.Status = floorStatus(gn)
-			break
-		}
+// step tests the inner solver's step η: it evaluates the candidate R(η),
+// compares the actual decrease of f with the model's in the ratio ρ,
+// updates Δ (quartered when ρ < 1/4, doubled up to trDeltaMax when
+// ρ > 3/4 and the step reached the boundary) and accepts the candidate
+// when ρ > 0.1 and f did not increase. It reports false when no more
+// progress is possible: Δ < 1e-15, or ten iterations in a row without a
+// relative decrease of f by 1e-12.
+func (r *trRun) step() bool {
+	eta, heta := r.cg.eta, r.cg.heta
+	// Model decrease and the candidate R(η).
+	dec := -(pairDot(r.cur.grad, eta) + 0.5*pairDot(eta, heta))
+	retract(r.cand.pt, r.cur.pt, eta)
+	r.cand.eval(r.o)
+	step := math.Sqrt(pairDot(eta, eta))
+	rho := (r.cur.f - r.cand.f) / dec
+	if !(dec > 0) {
+		rho = -1
 	}
-	st.Value = cur.h
-	st.Evaluations = o.evals
-	return st, nil
+	switch {
+	case rho < 0.25:
+		r.delta /= 4
+	case rho > 0.75 && step >= 0.99*r.delta:
+		r.delta = math.Min(2*r.delta, trDeltaMax)
+	}
+	if rho > 0.1 && r.cand.f <= r.cur.f {
+		if r.cand.f < r.cur.f*(1-1e-12) {
+			r.noProgress = 0
+		} else {
+			r.noProgress++
+		}
+		r.cur, r.cand = r.cand, r.cur
+	} else {
+		r.noProgress++
+	}
+	return !(r.delta < 1e-15 || r.noProgress >= 10)
 }
 
 func (t *TrustRegion) check() error {

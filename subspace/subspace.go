@@ -147,103 +147,154 @@ func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 // The factorisation checks ctx between its steps (each a few milliseconds
 // for inputs of tens of megabytes) and returns ctx.Err(), wrapped, when it
 // is done first; nothing is kept then.
+//
+// It runs three steps: validate (options, shapes, memory, finiteness),
+// normalise (unit-norm copies of the nonzero matrices) and factor (pivoted
+// QR, the stored basis and its checks).
 func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
+	tol, limit, err := validate(b, opt)
+	if err != nil {
+		return nil, err
+	}
+	in, err := normalise(b)
+	if err != nil {
+		return nil, err
+	}
+	return factor(ctx, b, in, tol, limit)
+}
+
+// validate checks opt and b in the order of the errors New documents
+// (options, count and shape, address-space overflow, data length, memory
+// limit, finiteness) and returns the rank tolerance and memory limit with
+// the defaults of Options applied.
+func validate(b Basis, opt Options) (tol float64, limit int64, err error) {
 	if opt.RankTol < 0 || opt.RankTol >= 1 || math.IsNaN(opt.RankTol) {
-		return nil, fmt.Errorf("%w: RankTol = %v, want 0 ≤ RankTol < 1", ErrOption, opt.RankTol)
+		return 0, 0, fmt.Errorf("%w: RankTol = %v, want 0 ≤ RankTol < 1", ErrOption, opt.RankTol)
 	}
 	if opt.MaxBytes < 0 {
-		return nil, fmt.Errorf("%w: MaxBytes = %d is negative", ErrOption, opt.MaxBytes)
+		return 0, 0, fmt.Errorf("%w: MaxBytes = %d is negative", ErrOption, opt.MaxBytes)
 	}
-	limit := opt.MaxBytes
+	limit = opt.MaxBytes
 	if limit == 0 {
 		limit = DefaultMaxBytes
 	}
 	r, m, n := b.Count, b.Rows, b.Cols
 	if r == 0 {
-		return nil, ErrEmpty
+		return 0, 0, ErrEmpty
 	}
 	if r < 0 || m <= 0 || n <= 0 {
-		return nil, fmt.Errorf("%w: %d matrices of %d×%d", ErrShape, r, m, n)
+		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d", ErrShape, r, m, n)
 	}
 	L, ok := mulOK(m, n)
 	total, ok2 := mulOK(L, r)
 	if !ok || !ok2 {
-		return nil, fmt.Errorf("%w: %d matrices of %d×%d overflow the address space", ErrTooLarge, r, m, n)
+		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d overflow the address space", ErrTooLarge, r, m, n)
 	}
 	if len(b.Data) != total {
-		return nil, fmt.Errorf("%w: %d matrices of %d×%d need %d entries, have %d", ErrShape, r, m, n, total, len(b.Data))
+		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d need %d entries, have %d", ErrShape, r, m, n, total, len(b.Data))
 	}
 	if need := workBytes(r, L); need > limit || need < 0 {
-		return nil, fmt.Errorf("%w: %d matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, r, m, n, need, limit)
+		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, r, m, n, need, limit)
 	}
 	for idx, v := range b.Data {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			t, rem := idx/L, idx%L
-			return nil, fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/n, rem%n, v)
+			return 0, 0, fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/n, rem%n, v)
 		}
 	}
-	tol := opt.RankTol
+	tol = opt.RankTol
 	if tol == 0 {
 		tol = float64(max(L, r)) * 0x1p-52
 		if tol >= 0.5 {
 			tol = 0.5
 		}
 	}
+	return tol, limit, nil
+}
 
-	// Copy the nonzero matrices, each scaled to unit Frobenius norm.
-	a := make([]float64, 0, total)
-	var orig []int      // orig[c] = input index of copied column c
-	var scale []float64 // input matrix t is normalised as Ldexp(B_t, shift[c])·scale[c]
-	var shift []int
-	zeros := 0
+// normalised is the validated input with its zero matrices dropped and
+// every other matrix scaled to unit Frobenius norm: copied column c (row c
+// of a) is Ldexp(B_t, shift[c])·scale[c] for t = orig[c].
+type normalised struct {
+	a     []float64 // the copied columns, rr rows of length L
+	orig  []int     // orig[c] = input index of copied column c
+	scale []float64
+	shift []int
+	zeros int // the number of exactly zero input matrices
+}
+
+// normalise copies the nonzero matrices of a validated b, each scaled to
+// unit Frobenius norm. It returns an error wrapping ErrZero when every
+// matrix is zero.
+func normalise(b Basis) (*normalised, error) {
+	r, m, n := b.Count, b.Rows, b.Cols
+	L := m * n
+	in := &normalised{a: make([]float64, 0, L*r)}
 	for t := 0; t < r; t++ {
 		src := b.Data[t*L : (t+1)*L]
 		nrm := blas64.Nrm2(blas64.Vector{N: L, Data: src, Inc: 1})
 		if nrm == 0 {
-			zeros++
+			in.zeros++
 			continue
 		}
-		a = append(a, src...)
-		row := a[len(a)-L:]
-		if math.IsInf(1/nrm, 0) || math.IsInf(nrm, 0) {
-			// Out of range (subnormal or huge entries): first bring the
-			// largest entry into [1, 2) by an exponent shift (math.Ldexp, so
-			// the factor itself never overflows, as 2^1030 would for a
-			// subnormal maximum), then normalise.
-			_, e := math.Frexp(accurate.MaxAbs(row))
-			for i := range row {
-				row[i] = math.Ldexp(row[i], 1-e)
-			}
-			nrm = blas64.Nrm2(blas64.Vector{N: L, Data: row, Inc: 1})
-			f2 := 1 / nrm
-			for i := range row {
-				row[i] *= f2
-			}
-			scale = append(scale, f2)
-			shift = append(shift, 1-e)
-		} else {
-			f := 1 / nrm
-			for i := range row {
-				row[i] *= f
-			}
-			scale = append(scale, f)
-			shift = append(shift, 0)
-		}
-		orig = append(orig, t)
+		in.a = append(in.a, src...)
+		f, sh := unitScale(in.a[len(in.a)-L:], nrm)
+		in.scale = append(in.scale, f)
+		in.shift = append(in.shift, sh)
+		in.orig = append(in.orig, t)
 	}
-	rr := len(orig)
-	if rr == 0 {
+	if len(in.orig) == 0 {
 		return nil, fmt.Errorf("%w: all %d matrices of %d×%d", ErrZero, r, m, n)
 	}
+	return in, nil
+}
 
+// unitScale scales row, a nonzero vector of Euclidean norm nrm (as
+// computed by Nrm2), to unit norm in place, and returns the factor f and
+// exponent shift sh it used: row ← Ldexp(row, sh)·f.
+func unitScale(row []float64, nrm float64) (f float64, sh int) {
+	if math.IsInf(1/nrm, 0) || math.IsInf(nrm, 0) {
+		// Out of range (subnormal or huge entries): first bring the
+		// largest entry into [1, 2) by an exponent shift (math.Ldexp, so
+		// the factor itself never overflows, as 2^1030 would for a
+		// subnormal maximum), then normalise.
+		_, e := math.Frexp(accurate.MaxAbs(row))
+		for i := range row {
+			row[i] = math.Ldexp(row[i], 1-e)
+		}
+		nrm = blas64.Nrm2(blas64.Vector{N: len(row), Data: row, Inc: 1})
+		f2 := 1 / nrm
+		for i := range row {
+			row[i] *= f2
+		}
+		return f2, 1 - e
+	}
+	f = 1 / nrm
+	for i := range row {
+		row[i] *= f
+	}
+	return f, 0
+}
+
+// factor orthonormalises the normalised input by pivoted QR and builds the
+// Subspace: it forms Q, keeps the smaller of W (the first k columns of Q)
+// and W⊥ (the complement basis from the reflectors), and records the
+// reconstruction error and the orthogonality of the stored vectors. It
+// consumes in.a. ctx is checked between the steps; when it is done the
+// result is discarded and its error returned, wrapped.
+func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64) (*Subspace, error) {
+	m, n := b.Rows, b.Cols
+	L := m * n
+	a := in.a
+	in.a = nil // a is the only reference, so that it can be released below
 	stop := func() bool { return ctx.Err() != nil }
 	cancelled := func() (*Subspace, error) { return nil, fmt.Errorf("subspace: %w", ctx.Err()) }
-	f := pivotedQR(a, rr, L, tol, stop)
+	f := pivotedQR(a, len(in.orig), L, tol, stop)
 	if stop() {
 		return cancelled()
 	}
 	k := f.k
-	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: r, zeros: zeros, rankLeft: f.left}
+	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: b.Count, zeros: in.zeros, rankLeft: f.left}
 	if k > 0 {
 		w.rankKept = math.Abs(f.diag[k-1])
 	}
@@ -255,7 +306,7 @@ func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	}
 	f.formQ(a, L, stop)
 	qw := a[:k*L]
-	w.recon = reconstruction(b.Data, orig, scale, shift, f, qw, L, stop)
+	w.recon = reconstruction(b.Data, in.orig, in.scale, in.shift, f, qw, L, stop)
 	if w.comp {
 		a = nil // release the input copy before the complement is built
 		w.s = L - k

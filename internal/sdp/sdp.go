@@ -93,257 +93,82 @@ func inner(a []Entry, s mat.Matrix) float64 {
 }
 
 // Solve solves p.
+//
+// The run is a plain loop over the state of hkm.go: record the iterate and
+// report progress, test for stop, then one predictor-corrector step (invert
+// Z, assemble and factor the Schur complement, predictor, corrector,
+// update). ctx is checked at the top of every iteration, while the Schur
+// complement is assembled and inside its factorisation; a cancelled run
+// returns the current iterate with status Cancelled and ctx's error.
 func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
+	if err := check(p); err != nil {
+		return nil, err
+	}
+	s := newHKM(p, set)
+	for it := 0; it < s.maxIter; it++ {
+		if err := ctx.Err(); err != nil {
+			return s.cancelled(it, err)
+		}
+		s.residuals()
+		s.record(it)
+		if set.Progress != nil {
+			set.Progress(it, s.sol.Primal, s.sol.Dual, s.sol.RelGap)
+		}
+		if out, done := s.stopTest(); done {
+			return out, nil
+		}
+		if !s.invertZ() {
+			return s.numericalStop(), nil
+		}
+		s.schur(ctx)
+		if err := ctx.Err(); err != nil {
+			return s.cancelled(it, err)
+		}
+		ok, err := s.factorSchur(ctx)
+		if err != nil {
+			return s.cancelled(it, err)
+		}
+		if !ok {
+			return s.numericalStop(), nil
+		}
+		dxa, dza, sigma, ok := s.predictor()
+		if !ok {
+			return s.numericalStop(), nil
+		}
+		dx, dy, dz := s.corrector(sigma, dxa, dza)
+		if dx == nil {
+			return s.numericalStop(), nil
+		}
+		s.update(dx, dy, dz)
+	}
+	s.record(s.maxIter)
+	return s.sol, nil
+}
+
+// check reports ErrShape unless p has a positive order, one right-hand side
+// per constraint, and finite entries inside the upper triangle.
+func check(p Problem) error {
 	n, k := p.N, len(p.A)
 	if n <= 0 || len(p.B) != k {
-		return nil, ErrShape
+		return ErrShape
 	}
 	for _, a := range append([][]Entry{p.C}, p.A...) {
 		for _, e := range a {
 			if e.I < 0 || e.J < e.I || e.J >= n || math.IsNaN(e.V) || math.IsInf(e.V, 0) {
-				return nil, ErrShape
+				return ErrShape
 			}
 		}
 	}
-	maxIter := set.MaxIter
-	if maxIter <= 0 {
-		maxIter = 100
-	}
-	tol := set.Tol
-	if tol <= 0 {
-		tol = 1e-9
-	}
-	c := dense(n, p.C)
-	full := make([][]Entry, k) // each A_i's entries in both triangles
-	for i := range p.A {
-		for _, e := range p.A[i] {
-			full[i] = append(full[i], e)
-			if e.I != e.J {
-				full[i] = append(full[i], Entry{e.J, e.I, e.V})
-			}
-		}
-	}
-	var bn float64
-	for _, v := range p.B {
-		bn += v * v
-	}
-	bn = math.Sqrt(bn)
-	cn := mat.Norm(c, 2)
-	// Infeasible start scaled to the data.
-	alpha := math.Max(10, math.Sqrt(float64(n))*math.Max(bn, cn))
-	x, z := mat.NewSymDense(n, nil), mat.NewSymDense(n, nil)
-	for i := 0; i < n; i++ {
-		x.SetSym(i, i, alpha)
-		z.SetSym(i, i, alpha)
-	}
-	y := make([]float64, k)
-	var mch chol // the Schur complement's factor, storage reused
-	sol := &Solution{Status: IterationLimit}
-	var best *Solution // the iterate with the smallest worst measure
-	measure := func(s *Solution) float64 { return math.Max(s.RelGap, math.Max(s.PrimalInfeas, s.DualInfeas)) }
-	aOp := func(s mat.Matrix) []float64 {
-		out := make([]float64, k)
-		for i := range p.A {
-			out[i] = inner(p.A[i], s)
-		}
-		return out
-	}
-	atOp := func(v []float64) *mat.SymDense {
-		s := mat.NewSymDense(n, nil)
-		for i := range p.A {
-			for _, e := range p.A[i] {
-				s.SetSym(e.I, e.J, s.At(e.I, e.J)+v[i]*e.V)
-			}
-		}
-		return s
-	}
-	for it := 0; it < maxIter; it++ {
-		if err := ctx.Err(); err != nil {
-			sol.Status = Cancelled
-			fill(sol, p, c, x, y, z, it, bn, cn)
-			return sol, err
-		}
-		// Residuals: rp = b − A(X), Rd = ΣyA − C − Z.
-		ax := aOp(x)
-		rp := make([]float64, k)
-		for i := range rp {
-			rp[i] = p.B[i] - ax[i]
-		}
-		rd := atOp(y)
-		subSym(rd, c)
-		subSym(rd, z)
-		fill(sol, p, c, x, y, z, it, bn, cn)
-		if set.Progress != nil {
-			set.Progress(it, sol.Primal, sol.Dual, sol.RelGap)
-		}
-		if measure(sol) <= tol {
-			sol.Status = Optimal
-			return sol, nil
-		}
-		if best == nil || measure(sol) < measure(best) {
-			cp := *sol
-			best = &cp
-		} else if measure(best) <= 1e3*tol && measure(sol) > 10*measure(best) {
-			// Past the attainable accuracy the iterates degrade: return the best.
-			best.Status = Optimal
-			if measure(best) > 10*tol {
-				best.Status = IterationLimit
-			}
-			return best, nil
-		}
-		if mat.Norm(x, 2) > 1e12*(1+alpha) || mat.Norm(z, 2) > 1e12*(1+alpha) {
-			sol.Status = Infeasible
-			return sol, nil
-		}
-		mu := trace(x, z) / float64(n)
-		var zch mat.Cholesky
-		if !zch.Factorize(z) {
-			return numericalStop(sol, best, measure), nil
-		}
-		var zinv mat.SymDense
-		zch.InverseTo(&zinv)
-		// Schur complement M_ij = tr(A_i Z⁻¹ A_j X), symmetric positive
-		// definite (tr(A_iZ⁻¹A_jX) = tr(A_jZ⁻¹A_iX) by transposition and
-		// cyclicity). With the sparse entries expanded to both triangles,
-		// M_ij = Σ_{(a,b,v)∈A_i} Σ_{(p,q,w)∈A_j} v·w·Z⁻¹_bp·X_qa, which costs
-		// nnz_i·nnz_j instead of a dense product.
-		m := mat.NewSymDense(k, nil)
-		zr, xr := zinv.RawSymmetric(), x.RawSymmetric()
-		zat := func(i, j int) float64 {
-			if i > j {
-				i, j = j, i
-			}
-			return zr.Data[i*zr.Stride+j]
-		}
-		xat := func(i, j int) float64 {
-			if i > j {
-				i, j = j, i
-			}
-			return xr.Data[i*xr.Stride+j]
-		}
-		for j := 0; j < k; j++ {
-			if j%64 == 0 && ctx.Err() != nil {
-				break // noticed below
-			}
-			ej := full[j]
-			for i := 0; i <= j; i++ {
-				var t float64
-				for _, ea := range full[i] {
-					for _, eb := range ej {
-						t += ea.V * eb.V * zat(ea.J, eb.I) * xat(eb.J, ea.I)
-					}
-				}
-				m.SetSym(i, j, t)
-			}
-		}
-		cancelled := func(err error) (*Solution, error) {
-			sol.Status = Cancelled
-			fill(sol, p, c, x, y, z, it, bn, cn)
-			return sol, err
-		}
-		if err := ctx.Err(); err != nil {
-			return cancelled(err)
-		}
-		mraw := m.RawSymmetric().Data
-		ok, err := mch.factor(ctx, mraw, k)
-		if err != nil {
-			return cancelled(err)
-		}
-		if !ok {
-			// Near the optimum M becomes ill-conditioned: regularise its
-			// diagonal slightly (this only perturbs the search direction).
-			var dmax float64
-			for i := 0; i < k; i++ {
-				dmax = math.Max(dmax, m.At(i, i))
-			}
-			for _, eps := range []float64{1e-14, 1e-12, 1e-10} {
-				for i := 0; i < k; i++ {
-					mraw[i*k+i] += eps * dmax
-				}
-				if ok, err = mch.factor(ctx, mraw, k); err != nil {
-					return cancelled(err)
-				}
-				if ok {
-					break
-				}
-			}
-			if !ok {
-				return numericalStop(sol, best, measure), nil
-			}
-		}
-		// direction solves for a given target and corrector term.
-		direction := func(sigmaMu float64, corr *mat.Dense) (*mat.SymDense, []float64, *mat.SymDense) {
-			// R = σμZ⁻¹ − X − Z⁻¹ Rd X − corr  (ΔX = R − Z⁻¹ AᵀΔy X)
-			var r mat.Dense
-			r.Mul(&zinv, rd)
-			r.Mul(&r, x)
-			r.Scale(-1, &r)
-			r.Sub(&r, x)
-			var sz mat.Dense
-			sz.Scale(sigmaMu, &zinv)
-			r.Add(&r, &sz)
-			if corr != nil {
-				r.Sub(&r, corr)
-			}
-			rhs := make([]float64, k)
-			for i := range rhs {
-				rhs[i] = inner(p.A[i], &r) - rp[i]
-			}
-			mch.solve(rhs)
-			dy := rhs
-			for _, v := range dy {
-				if math.IsNaN(v) || math.IsInf(v, 0) {
-					return nil, nil, nil // a breakdown: the caller stops with the best iterate
-				}
-			}
-			dz := atOp(dy)
-			dz.AddSym(dz, rd)
-			var dxf mat.Dense
-			dxf.Mul(&zinv, dz)
-			dxf.Mul(&dxf, x)
-			dxf.Sub(&r, &dxf)
-			dx := mat.NewSymDense(n, nil)
-			for i := 0; i < n; i++ {
-				for j := i; j < n; j++ {
-					dx.SetSym(i, j, (dxf.At(i, j)+dxf.At(j, i))/2)
-				}
-			}
-			return dx, dy, dz
-		}
-		dxa, _, dza := direction(0, nil)
-		if dxa == nil {
-			return numericalStop(sol, best, measure), nil
-		}
-		ap, ad := maxStep(x, dxa), maxStep(z, dza)
-		var xa, zaff mat.SymDense
-		xa.AddSym(x, scaled(dxa, ap))
-		zaff.AddSym(z, scaled(dza, ad))
-		muAff := trace(&xa, &zaff) / float64(n)
-		sigma := math.Pow(muAff/mu, 3)
-		sigma = math.Min(1, math.Max(sigma, 0))
-		var corr mat.Dense
-		corr.Mul(&zinv, dza)
-		corr.Mul(&corr, dxa)
-		dx, dy, dz := direction(sigma*mu, &corr)
-		if dx == nil {
-			return numericalStop(sol, best, measure), nil
-		}
-		ap = math.Min(1, 0.95*maxStep(x, dx))
-		ad = math.Min(1, 0.95*maxStep(z, dz))
-		x.AddSym(x, scaled(dx, ap))
-		z.AddSym(z, scaled(dz, ad))
-		for i := range y {
-			y[i] += ad * dy[i]
-		}
-	}
-	fill(sol, p, c, x, y, z, maxIter, bn, cn)
-	return sol, nil
+	return nil
 }
 
-// numericalStop returns the best iterate when the factorisations break
-// down: status Optimal if it met 10 times the tolerance (see Solve),
-// IterationLimit otherwise; a breakdown is not evidence of infeasibility.
-func numericalStop(cur, best *Solution, measure func(*Solution) float64) *Solution {
+// measure is the worst of the three stopping measures of an iterate.
+func measure(s *Solution) float64 { return math.Max(s.RelGap, math.Max(s.PrimalInfeas, s.DualInfeas)) }
+
+// numericalStop returns the better (by measure) of the current and the best
+// iterate when the factorisations break down, with status NumericalLimit;
+// a breakdown is not evidence of infeasibility.
+func numericalStop(cur, best *Solution) *Solution {
 	s := cur
 	if best != nil && measure(best) < measure(cur) {
 		s = best
