@@ -15,7 +15,8 @@ import (
 	"github.com/segre-lab/segre/subspace"
 )
 
-// maxBranchBoundSide is the largest min(m, n) for which branch-and-bound
+// maxBranchBoundSide is the largest sphere dimension (net.SideDimension:
+// min(m, n), or 2·min(m, n) − 1 for a complex subspace) for which branch-and-bound
 // joins (measured on this project's 2-core machine, Gaussian subspaces of
 // dimension mn/2, gap 1e-6: min side 3 with max side 32 takes 0.6 s, min
 // side 4 with max side 64 about 40 s; each further dimension multiplies
@@ -30,8 +31,10 @@ const maxSOSSize = 64
 // Plan returns the members Certify runs on w with these options, in the
 // order their outcomes are reported: the flattening bound, the three local
 // methods from Options.Starts starts each, branch-and-bound when
-// min(m, n) ≤ 5, and the level-one sum-of-squares relaxation when
-// m·n ≤ 64 (thresholds measured; see the README).
+// min(m, n) ≤ 5 (for a complex subspace: the phase-reduced sphere of
+// dimension 2·min(m, n) − 1 ≤ 5), and the level-one sum-of-squares
+// relaxation when m·n ≤ 64 (of the real coordinates, 4·m·n for a complex
+// subspace; thresholds measured, see the README).
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {
 		return opt.Members
@@ -43,7 +46,7 @@ func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 		&rankone.MultiStart{Method: &rankone.ALS{}, Starts: st, Seed: seed + 1, Workers: 1},
 		&rankone.MultiStart{Method: &rankone.Power{}, Starts: st, Seed: seed + 2, Workers: 1},
 	}
-	if min(w.Rows(), w.Cols()) <= maxBranchBoundSide {
+	if net.SideDimension(w) <= maxBranchBoundSide {
 		members = append(members, &net.BranchBound{Gap: opt.gap()})
 	}
 	if w.Rows()*w.Cols() <= maxSOSSize {
@@ -91,7 +94,8 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	sctx, stopMembers := context.WithCancel(rctx)
 	defer stopMembers()
 
-	m := &merger{gap: opt.gap(), lower: 0, upper: 1, progress: opt.Progress, begin: begin, stop: stopMembers}
+	m := &merger{gap: opt.gap(), lower: 0, upper: 1, progress: opt.Progress, begin: begin, stop: stopMembers,
+		complex: w.Field() == subspace.Complex}
 	m.report(Progress{Phase: Searching}, true)
 	outs := make([]Member, len(members))
 	var wg sync.WaitGroup
@@ -126,6 +130,9 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	merged := rankone.Merge(w, entries)
 	rep := Report{Lower: merged.Lower, Upper: merged.Upper, X: merged.X, Y: merged.Y,
 		FoundBy: merged.FoundBy, LowerBy: merged.LowerBy, Members: outs, Elapsed: time.Since(begin)}
+	if w.Field() == subspace.Complex {
+		complexReport(w, &rep)
+	}
 	rep.ValueLower, rep.ValueUpper = rankone.Result{Lower: rep.Lower, Upper: rep.Upper}.ValueBounds()
 	rep.Gap = relGapUpper(rep.ValueLower, rep.ValueUpper)
 	switch {
@@ -139,7 +146,7 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		rep.Stop = NothingMore
 	}
 	m.mu.Lock()
-	m.lower, m.upper = rep.Lower, rep.Upper
+	m.lower, m.upper, m.complex = rep.Lower, rep.Upper, false // already complex
 	m.mu.Unlock()
 	m.report(Progress{Phase: Done}, true)
 	if rep.Stop == Cancelled {
@@ -170,6 +177,7 @@ type merger struct {
 	progress     func(Progress)
 	begin, last  time.Time
 	stop         context.CancelFunc
+	complex      bool // the bounds are of the realified subspace: report and test complex ones
 }
 
 // member takes a member's progress report. rankone.Progress carries
@@ -201,7 +209,8 @@ func (m *merger) tighten(lo, up float64) {
 		m.upper = up
 	}
 	m.lower = math.Max(m.lower, lo)
-	hlo, hhi := rankone.Result{Lower: m.lower, Upper: m.upper}.ValueBounds()
+	l, u := m.bounds()
+	hlo, hhi := rankone.Result{Lower: l, Upper: u}.ValueBounds()
 	if !m.met && relGapUpper(hlo, hhi) <= m.gap {
 		m.met = true
 		m.stop()
@@ -221,7 +230,8 @@ func (m *merger) report(p Progress, force bool) {
 		return
 	}
 	m.last = now
-	p.Lower, p.Upper, p.Elapsed = m.lower, m.upper, now.Sub(m.begin)
+	p.Lower, p.Upper = m.bounds()
+	p.Elapsed = now.Sub(m.begin)
 	m.mu.Unlock()
 	m.progress(p)
 }
@@ -252,20 +262,7 @@ func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace
 		return w, Report{Upper: 1, Stop: Cancelled}, ctx.Err()
 	}
 	rep, err := Certify(ctx, w, opt)
-	in := &InputSpan{}
-	switch {
-	case terr == nil:
-		in.Proven, in.Distance = true, th
-		in.Lower = math.Max(0, accurate.Down(rep.Lower-th))
-		in.Upper = math.Min(1, accurate.Up(rep.Upper+th))
-	case errors.Is(terr, subspace.ErrDependent):
-		kept, left := w.RankGap()
-		in.Note = fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
-			w.Dim(), w.RankTol(), kept, left)
-	default:
-		in.Note = "not proven (" + terr.Error() + "): the interval holds for the stored basis only"
-	}
-	rep.Input = in
+	rep.Input = inputSpan(w, rep, th, terr)
 	return w, rep, err
 }
 
@@ -284,4 +281,78 @@ func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subsp
 		return nil, Report{}, err
 	}
 	return CertifyBasis(ctx, b, opt)
+}
+
+// bounds returns the merged interval on d*, translated to the complex
+// distance for a complex subspace (certified: rankone.ComplexLower and
+// ComplexUpper round outward); m.mu must be held.
+func (m *merger) bounds() (lo, up float64) {
+	if !m.complex {
+		return m.lower, m.upper
+	}
+	return rankone.ComplexLower(m.lower), rankone.ComplexUpper(m.upper)
+}
+
+// complexReport turns the merged Result of the realified subspace W” into
+// the complex report: Lower from the real Lower (d² = 2d”² − 1), Upper the
+// smaller of the translated real Upper and VerifyComplex at the witness
+// (which has no cancellation for tiny distances), and the complex witness.
+func complexReport(w *subspace.Subspace, rep *Report) {
+	up := rankone.ComplexUpper(rep.Upper)
+	if v, err := rankone.VerifyComplex(w, rep.X, rep.Y); err == nil && v < up {
+		up = v
+	}
+	rep.Lower, rep.Upper = rankone.ComplexLower(rep.Lower), up
+	if rep.Lower > rep.Upper { // cannot happen when both are proven; keep the report proper
+		rep.Lower = 0
+	}
+	rep.Field = subspace.Complex
+	rep.XC, rep.YC = subspace.ComplexWitness(rep.X, rep.Y)
+}
+
+// CertifyComplex builds the subspace spanned over C by the complex matrices
+// of cb (subspace.NewComplex, with Options.Subspace), proves how far the
+// stored basis is from their span, and certifies as Certify does; the
+// Report's bounds and witness (XC, YC) are complex. cb is not modified.
+func CertifyComplex(ctx context.Context, cb subspace.ComplexBasis, opt Options) (*subspace.Subspace, Report, error) {
+	if err := opt.check(); err != nil {
+		return nil, Report{}, err
+	}
+	begin := time.Now()
+	if opt.Progress != nil {
+		opt.Progress(Progress{Phase: Orthonormalising, Upper: 1, Elapsed: time.Since(begin)})
+	}
+	w, err := subspace.NewComplex(ctx, cb, opt.Subspace)
+	if err != nil {
+		return nil, Report{}, err
+	}
+	if opt.Progress != nil {
+		opt.Progress(Progress{Phase: ProvingInputSpan, Upper: 1, Elapsed: time.Since(begin)})
+	}
+	th, terr := subspace.ComplexInputDistance(ctx, cb, w)
+	if ctx.Err() != nil {
+		return w, Report{Upper: 1, Stop: Cancelled}, ctx.Err()
+	}
+	rep, err := Certify(ctx, w, opt)
+	rep.Input = inputSpan(w, rep, th, terr)
+	return w, rep, err
+}
+
+// inputSpan widens the report's interval by the proven distance th to the
+// input's span, or says why it cannot (terr).
+func inputSpan(w *subspace.Subspace, rep Report, th float64, terr error) *InputSpan {
+	in := &InputSpan{}
+	switch {
+	case terr == nil:
+		in.Proven, in.Distance = true, th
+		in.Lower = math.Max(0, accurate.Down(rep.Lower-th))
+		in.Upper = math.Min(1, accurate.Up(rep.Upper+th))
+	case errors.Is(terr, subspace.ErrDependent):
+		kept, left := w.RankGap()
+		in.Note = fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",
+			w.ComplexDim(), w.RankTol(), kept, left)
+	default:
+		in.Note = "not proven (" + terr.Error() + "): the interval holds for the stored basis only"
+	}
+	return in
 }

@@ -186,7 +186,14 @@ type Report struct {
 	// Gap is a certified upper bound on (ValueUpper − ValueLower)/ValueUpper.
 	Gap float64
 	// X and Y are the witness: unit vectors with dist_F(X Yᵀ, W) ≤ Upper.
+	// For a complex subspace they are the real coordinates (re, im) of the
+	// complex witness XC, YC.
 	X, Y []float64
+	// Field is the subspace's field; for Complex, XC and YC are the
+	// witness (unit vectors of C^m and C^n with dist_F(XC YCᵀ, W) ≤ Upper)
+	// and Lower, Upper bound the complex distance.
+	Field  subspace.Field
+	XC, YC []complex128
 	// FoundBy names the member whose witness gave Upper; LowerBy names the
 	// argument that proved Lower ("" when Lower is 0).
 	FoundBy, LowerBy string

@@ -86,7 +86,7 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 	sides := make([]side, workers)
 	gbuf, vbuf := make([][]float64, workers), make([][]float64, workers)
 	for k := range sides {
-		sides[k] = side{w: w, onX: sd.onX, d: sd.d, p: sd.p, form: sd.form}
+		sides[k] = sd // a copy: its own evaluation count
 		gbuf[k], vbuf[k] = make([]float64, sd.d), make([]float64, sd.p)
 	}
 	rankone.ParallelFor(ctx, int(nchunks), workers, func(k, c int) {

@@ -12,10 +12,22 @@ import (
 var ErrTooLarge = errors.New("net: search too large for its limit")
 
 // side is the sphere the net or the cells live on (the smaller side).
+//
+// Complex subspaces (subspace.NewComplex): the net side is x ∈ C^m in real
+// coordinates X = (re x, im x) ∈ R^{2m} (or y likewise). h is invariant
+// under the phase symmetry (x, y) → (e^{iθ}x, e^{−iθ}y), and every orbit
+// meets the set where the first coordinate of the net side is real: for
+// x₁ ≠ 0 take e^{iθ} = conj(x₁)/|x₁|, and x₁ = 0 is already in it. So the
+// maximum of h over the unit sphere of R^{2m} is its maximum over the unit
+// sphere of the 2m − 1 coordinates left when im x₁ (index m of X) is fixed
+// at 0 (derived here), and the nets and cells cover only that sphere: d is
+// 2m − 1, and lift inserts the zero. Without the reduction the maximisers
+// would form circles, which branch-and-bound cannot isolate.
 type side struct {
 	w     *subspace.Subspace
-	onX   bool // the net is over x ∈ S^{m−1}, y solved exactly
-	d, p  int  // dimensions of the net side and of the exact side
+	onX   bool // the net is over x, y solved exactly
+	d, p  int  // dimensions of the net side (after the phase reduction) and of the exact side
+	fixed int  // 1 + the coordinate of the net side fixed at 0 by the phase reduction (0: none)
 	form  *BlockForm
 	evals int
 }
@@ -28,6 +40,10 @@ func newSide(w *subspace.Subspace) side {
 	if w.Rows() > w.Cols() {
 		s = side{w: w, onX: false, d: w.Cols(), p: w.Rows()}
 	}
+	if w.Field() == subspace.Complex && s.d >= 2 {
+		s.fixed = 1 + s.d/2 // im of the first coordinate
+		s.d--
+	}
 	if f := BlockFormBytes(w, s.onX); f <= blockFormLimit && f <= w.MemoryLimit()/2 {
 		s.form = NewBlockForm(w, s.onX)
 	}
@@ -39,6 +55,7 @@ func newSide(w *subspace.Subspace) side {
 // best vector of the exact side into vec.
 func (s *side) value(c, vec []float64) (est, upper float64) {
 	s.evals++
+	c = s.lift(c)
 	var e, u float64
 	if s.form != nil {
 		e, u = s.form.MaxEig(c, vec)
@@ -57,7 +74,7 @@ func (s *side) value(c, vec []float64) (est, upper float64) {
 
 // witness returns (x, y) from a net-side point c and exact-side vector v.
 func (s *side) witness(c, v []float64) (x, y []float64) {
-	cn := append([]float64(nil), c...)
+	cn := append([]float64(nil), s.lift(c)...)
 	var n float64
 	for _, a := range cn {
 		n += float64(a * a)
@@ -71,4 +88,31 @@ func (s *side) witness(c, v []float64) (x, y []float64) {
 		return cn, vn
 	}
 	return vn, cn
+}
+
+// lift returns the net side's full vector for a point c of the net
+// coordinates: c itself, or c with the phase-reduction zero inserted.
+func (s *side) lift(c []float64) []float64 {
+	if s.fixed == 0 {
+		return c
+	}
+	z := s.fixed - 1
+	full := make([]float64, len(c)+1)
+	copy(full, c[:z])
+	copy(full[z+1:], c[z:])
+	return full
+}
+
+// SideDimension returns the dimension of the sphere that the nets and
+// branch-and-bound cover for w: min(m, n) for a real subspace, one less
+// than the smaller side's real dimension 2·min(m, n) for a complex one (the
+// phase reduction). Their cost grows exponentially with it.
+func SideDimension(w *subspace.Subspace) int { return newSideDims(w) }
+
+func newSideDims(w *subspace.Subspace) int {
+	d := min(w.Rows(), w.Cols())
+	if w.Field() == subspace.Complex && d >= 2 {
+		d--
+	}
+	return d
 }

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"math/cmplx"
 	"os"
 	"strconv"
 	"strings"
@@ -38,9 +39,41 @@ var npyMagic = []byte("\x93NUMPY")
 // NaN or infinite (ErrNotFinite, naming the matrix and entry) and a file in
 // which every matrix is zero (ErrZero), so that these errors name the file.
 func ReadFile(path string, maxBytes int64) (Basis, error) {
-	f, err := os.Open(path)
+	in, err := ReadInput(path, maxBytes)
 	if err != nil {
 		return Basis{}, err
+	}
+	if in.Field == Complex {
+		return Basis{}, fmt.Errorf("%s: %w: complex data (read it with ReadInput, or certify -field complex)", path, ErrFormat)
+	}
+	return in.Real, nil
+}
+
+// Input is a basis read from a file: real (Real set) or complex (Complex
+// set), as Field says.
+type Input struct {
+	Field   Field
+	Real    Basis
+	Complex ComplexBasis
+}
+
+// AsComplex returns the input as complex matrices (real data with zero
+// imaginary parts), to treat real data over C.
+func (in Input) AsComplex() ComplexBasis {
+	if in.Field == Complex {
+		return in.Complex
+	}
+	return ComplexFromReal(in.Real)
+}
+
+// ReadInput reads a real or complex basis from a .npy file (float, integer
+// or complex dtypes) or a text file (real, or complex when the header's
+// fourth word is "complex"), with the checks of ReadFile. The file is not
+// modified; errors name it.
+func ReadInput(path string, maxBytes int64) (Input, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return Input{}, err
 	}
 	defer f.Close()
 	size := int64(-1)
@@ -49,22 +82,45 @@ func ReadFile(path string, maxBytes int64) (Basis, error) {
 	}
 	br := bufio.NewReader(f)
 	head, _ := br.Peek(len(npyMagic))
-	var b Basis
 	if bytes.HasPrefix(head, []byte("PK\x03\x04")) || bytes.HasPrefix(head, []byte("PK\x05\x06")) {
-		return Basis{}, fmt.Errorf("%s: %w: a zip archive (an .npz file?): save one array with numpy.save as .npy", path, ErrFormat)
+		return Input{}, fmt.Errorf("%s: %w: a zip archive (an .npz file?): save one array with numpy.save as .npy", path, ErrFormat)
 	}
+	var in Input
 	if bytes.Equal(head, npyMagic) {
-		b, err = readNPY(br, maxBytes, size)
+		in, err = readNPYInput(br, maxBytes, size)
 	} else {
-		b, err = readText(br, maxBytes, size)
+		in, err = readTextInput(br, maxBytes, size)
 	}
 	if err == nil {
-		err = checkValues(b)
+		if in.Field == Complex {
+			err = checkComplexValues(in.Complex)
+		} else {
+			err = checkValues(in.Real)
+		}
 	}
 	if err != nil {
-		return Basis{}, fmt.Errorf("%s: %w", path, err)
+		return Input{}, fmt.Errorf("%s: %w", path, err)
 	}
-	return b, nil
+	return in, nil
+}
+
+// checkComplexValues is checkValues for complex data.
+func checkComplexValues(b ComplexBasis) error {
+	L := b.Rows * b.Cols
+	zero := true
+	for idx, z := range b.Data {
+		if cmplx.IsNaN(z) || cmplx.IsInf(z) {
+			t, rem := idx/L, idx%L
+			return fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/b.Cols, rem%b.Cols, z)
+		}
+		if z != 0 {
+			zero = false
+		}
+	}
+	if zero {
+		return fmt.Errorf("%w: all %d matrices of %d×%d", ErrZero, b.Count, b.Rows, b.Cols)
+	}
+	return nil
 }
 
 // checkValues refuses a basis with a NaN or infinite entry, or with every
@@ -110,6 +166,13 @@ func limitOf(maxBytes int64) int64 {
 // bounds the peak of reading and orthonormalising, and a shape that New
 // would refuse is refused before a byte of data is read.
 func checkShape(r, m, n int64, maxBytes int64) (int, error) {
+	return checkShapeField(r, m, n, maxBytes, false)
+}
+
+// checkShapeField is checkShape for real (complex false) or complex data:
+// a complex entry takes 16 bytes, and NewComplex orthonormalises 2r real
+// vectors of 2mn entries and stores W” of 2k vectors of 4mn entries.
+func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 	if r <= 0 || m <= 0 || n <= 0 {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d) has a zero or negative size", ErrFormat, r, m, n)
 	}
@@ -119,7 +182,15 @@ func checkShape(r, m, n int64, maxBytes int64) (int, error) {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
 	}
 	data := 8 * r * m * n
-	if need := data + workBytes(int(r), int(m*n)); need > limit || need < 0 {
+	need := data + workBytes(int(r), int(m*n))
+	if complex {
+		if r > lim/(4*m*n) {
+			return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
+		}
+		data = 16 * r * m * n
+		need = data + 2*data + workBytes(int(2*r), int(2*m*n)) + 8*min(2*r, 2*m*n)*4*m*n
+	}
+	if need > limit || need < 0 {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d): reading (%d bytes) and orthonormalising need about %d bytes, limit %d",
 			ErrTooLarge, r, m, n, data, need, limit)
 	}
@@ -135,41 +206,54 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) { return readNPY(rd, m
 // readNPY is ReadNPY; size ≥ 0 is the whole stream's length when known, and
 // a stream too short for its declared shape is refused before allocating.
 func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
+	in, err := readNPYInput(rd, maxBytes, size)
+	if err != nil {
+		return Basis{}, err
+	}
+	if in.Field == Complex {
+		return Basis{}, fmt.Errorf("%w: npy: complex data (read it with ReadInput, or certify -field complex)", ErrFormat)
+	}
+	return in.Real, nil
+}
+
+// readNPYInput reads real or complex .npy data (complex64 and complex128
+// are read as pairs of components, real part first, as NumPy stores them).
+func readNPYInput(rd io.Reader, maxBytes, size int64) (Input, error) {
 	var pre [8]byte
 	if _, err := io.ReadFull(rd, pre[:]); err != nil {
-		return Basis{}, readFailure(err, "npy: truncated preamble")
+		return Input{}, readFailure(err, "npy: truncated preamble")
 	}
 	if !bytes.Equal(pre[:6], npyMagic) {
-		return Basis{}, fmt.Errorf("%w: npy: bad magic bytes", ErrFormat)
+		return Input{}, fmt.Errorf("%w: npy: bad magic bytes", ErrFormat)
 	}
 	var hlen int
 	switch pre[6] {
 	case 1:
 		var l [2]byte
 		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Basis{}, readFailure(err, "npy: truncated header length")
+			return Input{}, readFailure(err, "npy: truncated header length")
 		}
 		hlen = int(binary.LittleEndian.Uint16(l[:]))
 	case 2, 3:
 		var l [4]byte
 		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Basis{}, readFailure(err, "npy: truncated header length")
+			return Input{}, readFailure(err, "npy: truncated header length")
 		}
 		h := binary.LittleEndian.Uint32(l[:])
 		if h > 1<<20 {
-			return Basis{}, fmt.Errorf("%w: npy: header length %d is implausible", ErrFormat, h)
+			return Input{}, fmt.Errorf("%w: npy: header length %d is implausible", ErrFormat, h)
 		}
 		hlen = int(h)
 	default:
-		return Basis{}, fmt.Errorf("%w: npy: unsupported format version %d.%d", ErrFormat, pre[6], pre[7])
+		return Input{}, fmt.Errorf("%w: npy: unsupported format version %d.%d", ErrFormat, pre[6], pre[7])
 	}
 	hdr := make([]byte, hlen)
 	if _, err := io.ReadFull(rd, hdr); err != nil {
-		return Basis{}, readFailure(err, "npy: truncated header")
+		return Input{}, readFailure(err, "npy: truncated header")
 	}
 	descr, fortran, shape, err := parseNPYHeader(string(hdr))
 	if err != nil {
-		return Basis{}, err
+		return Input{}, err
 	}
 	var r, m, n int64
 	switch len(shape) {
@@ -178,23 +262,24 @@ func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	case 3:
 		r, m, n = shape[0], shape[1], shape[2]
 	default:
-		return Basis{}, fmt.Errorf("%w: npy: shape has %d dimensions, want (r, m, n) or (m, n)", ErrFormat, len(shape))
+		return Input{}, fmt.Errorf("%w: npy: shape has %d dimensions, want (r, m, n) or (m, n)", ErrFormat, len(shape))
 	}
-	total, err := checkShape(r, m, n, maxBytes)
+	conv, item, parts, err := npyConverter(descr)
 	if err != nil {
-		return Basis{}, err
+		return Input{}, err
 	}
-	conv, item, err := npyConverter(descr)
+	total, err := checkShapeField(r, m, n, maxBytes, parts == 2)
 	if err != nil {
-		return Basis{}, err
+		return Input{}, err
 	}
+	total *= parts // components to read
 	if size >= 0 {
 		head := int64(len(pre)) + int64(hlen) + 2
 		if pre[6] != 1 {
 			head += 2
 		}
 		if want := head + int64(total)*int64(item); size < want {
-			return Basis{}, fmt.Errorf("%w: npy: data truncated: shape (%d, %d, %d) needs %d bytes, the file has %d", ErrFormat, r, m, n, want, size)
+			return Input{}, fmt.Errorf("%w: npy: data truncated: shape (%d, %d, %d) needs %d bytes, the file has %d", ErrFormat, r, m, n, want, size)
 		}
 	}
 	// One array of the declared size (its pages are touched only as data
@@ -205,8 +290,10 @@ func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	place := func(s int) int { return s }
 	if fortran {
 		place = func(s int) int {
+			c := s % parts // the component of a complex entry
+			s /= parts
 			t, q := s%ri, s/ri
-			return (t*mi+q%mi)*ni + q/mi
+			return ((t*mi+q%mi)*ni+q/mi)*parts + c
 		}
 	}
 	buf := make([]byte, 1<<16)
@@ -215,12 +302,12 @@ func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
 		want := min((total-done)*item, len(buf))
 		got, err := io.ReadFull(rd, buf[:want])
 		if err != nil {
-			return Basis{}, readFailure(err, fmt.Sprintf("npy: data truncated after %d of %d values", done+got/item, total))
+			return Input{}, readFailure(err, fmt.Sprintf("npy: data truncated after %d of %d values", done+got/item, total))
 		}
 		for off := 0; off < got; off += item {
 			v, err := conv(buf[off : off+item])
 			if err != nil {
-				return Basis{}, fmt.Errorf("%w: npy: value %d: %v", ErrFormat, done, err)
+				return Input{}, fmt.Errorf("%w: npy: value %d: %v", ErrFormat, done, err)
 			}
 			data[place(done)] = v
 			done++
@@ -228,9 +315,16 @@ func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	}
 	var one [1]byte
 	if k, _ := rd.Read(one[:]); k > 0 {
-		return Basis{}, fmt.Errorf("%w: npy: trailing bytes after %d values", ErrFormat, total)
+		return Input{}, fmt.Errorf("%w: npy: trailing bytes after %d values", ErrFormat, total)
 	}
-	return Basis{Count: ri, Rows: mi, Cols: ni, Data: data}, nil
+	if parts == 2 {
+		cd := make([]complex128, total/2)
+		for i := range cd {
+			cd[i] = complex(data[2*i], data[2*i+1])
+		}
+		return Input{Field: Complex, Complex: ComplexBasis{Count: ri, Rows: mi, Cols: ni, Data: cd}}, nil
+	}
+	return Input{Field: Real, Real: Basis{Count: ri, Rows: mi, Cols: ni, Data: data}}, nil
 }
 
 // parseNPYHeader parses the Python dict literal of an .npy header.
@@ -298,9 +392,9 @@ func parseNPYHeader(h string) (descr string, fortran bool, shape []int64, err er
 }
 
 // npyConverter returns a decoder of one element of dtype descr to float64.
-func npyConverter(descr string) (func([]byte) (float64, error), int, error) {
+func npyConverter(descr string) (conv func([]byte) (float64, error), item, parts int, err error) {
 	if len(descr) < 3 {
-		return nil, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
+		return nil, 0, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
 	}
 	var bo binary.ByteOrder = binary.LittleEndian
 	switch descr[0] {
@@ -308,19 +402,25 @@ func npyConverter(descr string) (func([]byte) (float64, error), int, error) {
 	case '>':
 		bo = binary.BigEndian
 	default:
-		return nil, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
+		return nil, 0, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
 	}
 	kind, sz := descr[1], descr[2:]
-	size, err := strconv.Atoi(sz)
-	if err != nil {
-		return nil, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
+	size, aerr := strconv.Atoi(sz)
+	if aerr != nil {
+		return nil, 0, 0, fmt.Errorf("%w: npy: unsupported dtype %q", ErrFormat, descr)
+	}
+	if kind == 'c' && (size == 8 || size == 16) {
+		// complex64 / complex128: two floats of half the size each.
+		kind, size, parts = 'f', size/2, 2
+	} else {
+		parts = 1
 	}
 	const exact = 1 << 53
 	switch {
 	case kind == 'f' && size == 8:
-		return func(b []byte) (float64, error) { return math.Float64frombits(bo.Uint64(b)), nil }, 8, nil
+		return func(b []byte) (float64, error) { return math.Float64frombits(bo.Uint64(b)), nil }, 8, parts, nil
 	case kind == 'f' && size == 4:
-		return func(b []byte) (float64, error) { return float64(math.Float32frombits(bo.Uint32(b))), nil }, 4, nil
+		return func(b []byte) (float64, error) { return float64(math.Float32frombits(bo.Uint32(b))), nil }, 4, parts, nil
 	case kind == 'i' && (size == 1 || size == 2 || size == 4 || size == 8):
 		return func(b []byte) (float64, error) {
 			var v int64
@@ -338,7 +438,7 @@ func npyConverter(descr string) (func([]byte) (float64, error), int, error) {
 				return 0, fmt.Errorf("integer %d is not exactly representable as float64", v)
 			}
 			return float64(v), nil
-		}, size, nil
+		}, size, 1, nil
 	case kind == 'u' && (size == 1 || size == 2 || size == 4 || size == 8):
 		return func(b []byte) (float64, error) {
 			var v uint64
@@ -356,9 +456,9 @@ func npyConverter(descr string) (func([]byte) (float64, error), int, error) {
 				return 0, fmt.Errorf("integer %d is not exactly representable as float64", v)
 			}
 			return float64(v), nil
-		}, size, nil
+		}, size, 1, nil
 	}
-	return nil, 0, fmt.Errorf("%w: npy: unsupported dtype %q (want a real float or integer type)", ErrFormat, descr)
+	return nil, 0, 0, fmt.Errorf("%w: npy: unsupported dtype %q (want a float, complex or integer type)", ErrFormat, descr)
 }
 
 // WriteNPY writes b as a version 1.0 .npy array of shape (r, m, n), '<f8', C order.
@@ -435,6 +535,19 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) { return readText(rd,
 // number takes at least two bytes (a digit and a separator) except the last,
 // so a declared count above (size+1)/2 is refused before allocating.
 func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
+	in, err := readTextInput(rd, maxBytes, size)
+	if err != nil {
+		return Basis{}, err
+	}
+	if in.Field == Complex {
+		return Basis{}, fmt.Errorf("%w: text: complex data (read it with ReadInput)", ErrFormat)
+	}
+	return in.Real, nil
+}
+
+// readTextInput reads the text format, real or complex (header "r m n
+// complex"; see ReadText).
+func readTextInput(rd io.Reader, maxBytes, size int64) (Input, error) {
 	br := bufio.NewReader(rd)
 	if bom, _ := br.Peek(3); bytes.Equal(bom, []byte("\xEF\xBB\xBF")) {
 		br.Discard(3) // a UTF-8 byte-order mark, as some editors write
@@ -469,47 +582,70 @@ func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
 	for i := range dims {
 		t, ln, err := next()
 		if err == io.EOF {
-			return Basis{}, fmt.Errorf("%w: text: missing header \"r m n\"", ErrFormat)
+			return Input{}, fmt.Errorf("%w: text: missing header \"r m n\"", ErrFormat)
 		}
 		if err != nil {
-			return Basis{}, err
+			return Input{}, err
 		}
 		v, e := strconv.ParseInt(t, 10, 64)
 		if e != nil {
-			return Basis{}, fmt.Errorf("%w: text: line %d: header entry %s is not an integer", ErrFormat, ln, quoteToken(t))
+			return Input{}, fmt.Errorf("%w: text: line %d: header entry %s is not an integer", ErrFormat, ln, quoteToken(t))
 		}
 		dims[i] = v
 	}
-	total, err := checkShape(dims[0], dims[1], dims[2], maxBytes)
+	// An optional fourth header word "complex" on the header's line
+	// marks complex entries.
+	isComplex := false
+	if len(tokens) > 0 && tokens[0] == "complex" {
+		isComplex = true
+		tokens = tokens[1:]
+	}
+	total, err := checkShapeField(dims[0], dims[1], dims[2], maxBytes, isComplex)
 	if err != nil {
-		return Basis{}, err
+		return Input{}, err
 	}
 	if size >= 0 && int64(total) > (size+1)/2 {
-		return Basis{}, fmt.Errorf("%w: text: truncated: %d numbers declared, a file of %d bytes holds at most %d", ErrFormat, total, size, (size+1)/2)
+		return Input{}, fmt.Errorf("%w: text: truncated: %d numbers declared, a file of %d bytes holds at most %d", ErrFormat, total, size, (size+1)/2)
 	}
 	// Grown as numbers arrive (a text file is at least twice as large as
 	// the count it holds, so growth never exceeds the data's bound).
 	data := make([]float64, 0, min(total, 1<<17))
-	for len(data) < total {
+	var cdata []complex128
+	if isComplex {
+		cdata = make([]complex128, 0, min(total, 1<<17))
+	}
+	for len(data)+len(cdata) < total {
 		t, ln, err := next()
 		if err == io.EOF {
-			return Basis{}, fmt.Errorf("%w: text: truncated: %d numbers expected, %d found", ErrFormat, total, len(data))
+			return Input{}, fmt.Errorf("%w: text: truncated: %d numbers expected, %d found", ErrFormat, total, len(data)+len(cdata))
 		}
 		if err != nil {
-			return Basis{}, err
+			return Input{}, err
+		}
+		if isComplex {
+			z, perr := parseComplex(t)
+			if perr != nil {
+				return Input{}, fmt.Errorf("%w: text: line %d: %s %s", perr, ln, quoteToken(t), perr.reason)
+			}
+			cdata = append(cdata, z)
+			continue
 		}
 		v, perr := parseDecimal(t)
 		if perr != nil {
-			return Basis{}, fmt.Errorf("%w: text: line %d: %s %s", perr, ln, quoteToken(t), perr.reason)
+			return Input{}, fmt.Errorf("%w: text: line %d: %s %s", perr, ln, quoteToken(t), perr.reason)
 		}
 		data = append(data, v)
 	}
 	if t, ln, err := next(); err == nil {
-		return Basis{}, fmt.Errorf("%w: text: line %d: unexpected %s after the %d numbers", ErrFormat, ln, quoteToken(t), total)
+		return Input{}, fmt.Errorf("%w: text: line %d: unexpected %s after the %d numbers", ErrFormat, ln, quoteToken(t), total)
 	} else if err != io.EOF {
-		return Basis{}, err
+		return Input{}, err
 	}
-	return Basis{Count: int(dims[0]), Rows: int(dims[1]), Cols: int(dims[2]), Data: data}, nil
+	r, m, n := int(dims[0]), int(dims[1]), int(dims[2])
+	if isComplex {
+		return Input{Field: Complex, Complex: ComplexBasis{Count: r, Rows: m, Cols: n, Data: cdata}}, nil
+	}
+	return Input{Field: Real, Real: Basis{Count: r, Rows: m, Cols: n, Data: data}}, nil
 }
 
 // numberError says why a token is not an acceptable number; it wraps the
@@ -575,4 +711,97 @@ func quoteToken(t string) string {
 		return strconv.QuoteToASCII(t[:32]) + "…"
 	}
 	return strconv.QuoteToASCII(t)
+}
+
+// parseComplex parses a complex entry of the text format: a plain decimal
+// (real), a plain decimal followed by "i" (imaginary, e.g. "-2.5e-3i"), or
+// both joined by the imaginary part's sign ("1.5-2i", "0+1e-3i"). The
+// parts obey parseDecimal's rules.
+func parseComplex(t string) (complex128, *numberError) {
+	if !strings.HasSuffix(t, "i") {
+		v, err := parseDecimal(t)
+		return complex(v, 0), err
+	}
+	body := t[:len(t)-1]
+	// The split is at the last sign that is not the first character and
+	// does not follow an exponent letter.
+	cut := -1
+	for k := len(body) - 1; k > 0; k-- {
+		if (body[k] == '+' || body[k] == '-') && body[k-1] != 'e' && body[k-1] != 'E' {
+			cut = k
+			break
+		}
+	}
+	if cut < 0 {
+		v, err := parseDecimal(body)
+		return complex(0, v), err
+	}
+	re, err := parseDecimal(body[:cut])
+	if err != nil {
+		return 0, err
+	}
+	im, err := parseDecimal(body[cut:])
+	if err != nil {
+		return 0, err
+	}
+	return complex(re, im), nil
+}
+
+// WriteComplexText writes b in the complex text format: the header
+// "r m n complex", then each entry as re±imi with shortest round-trip
+// decimals, one matrix row per line.
+func WriteComplexText(wr io.Writer, b ComplexBasis) error {
+	if b.Count <= 0 || b.Rows <= 0 || b.Cols <= 0 || len(b.Data) != b.Count*b.Rows*b.Cols {
+		return fmt.Errorf("%w: basis of %d matrices of %d×%d with %d entries", ErrShape, b.Count, b.Rows, b.Cols, len(b.Data))
+	}
+	bw := bufio.NewWriter(wr)
+	fmt.Fprintf(bw, "# %d complex matrices of %d×%d, each row-major\n%d %d %d complex\n", b.Count, b.Rows, b.Cols, b.Count, b.Rows, b.Cols)
+	for t := 0; t < b.Count; t++ {
+		for i := 0; i < b.Rows; i++ {
+			row := b.Data[(t*b.Rows+i)*b.Cols : (t*b.Rows+i+1)*b.Cols]
+			for j, z := range row {
+				if j > 0 {
+					bw.WriteByte(' ')
+				}
+				bw.WriteString(strconv.FormatFloat(real(z), 'g', -1, 64))
+				im := strconv.FormatFloat(imag(z), 'g', -1, 64)
+				if im[0] != '-' {
+					bw.WriteByte('+')
+				}
+				bw.WriteString(im)
+				bw.WriteByte('i')
+			}
+			bw.WriteByte('\n')
+		}
+	}
+	return bw.Flush()
+}
+
+// WriteComplexNPY writes b as a version 1.0 .npy array of shape (r, m, n),
+// '<c16', C order.
+func WriteComplexNPY(wr io.Writer, b ComplexBasis) error {
+	if b.Count <= 0 || b.Rows <= 0 || b.Cols <= 0 || len(b.Data) != b.Count*b.Rows*b.Cols {
+		return fmt.Errorf("%w: basis of %d matrices of %d×%d with %d entries", ErrShape, b.Count, b.Rows, b.Cols, len(b.Data))
+	}
+	h := fmt.Sprintf("{'descr': '<c16', 'fortran_order': False, 'shape': (%d, %d, %d), }", b.Count, b.Rows, b.Cols)
+	pad := 64 - (10+len(h)+1)%64
+	if pad == 64 {
+		pad = 0
+	}
+	h += strings.Repeat(" ", pad) + "\n"
+	bw := bufio.NewWriter(wr)
+	bw.Write(npyMagic)
+	bw.Write([]byte{1, 0})
+	var l [2]byte
+	binary.LittleEndian.PutUint16(l[:], uint16(len(h)))
+	bw.Write(l[:])
+	bw.WriteString(h)
+	var e [8]byte
+	for _, z := range b.Data {
+		binary.LittleEndian.PutUint64(e[:], math.Float64bits(real(z)))
+		bw.Write(e[:])
+		binary.LittleEndian.PutUint64(e[:], math.Float64bits(imag(z)))
+		bw.Write(e[:])
+	}
+	return bw.Flush()
 }

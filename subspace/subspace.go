@@ -78,6 +78,8 @@ type Options struct {
 	// exceed it are not built. Zero means DefaultMaxBytes; negative is
 	// invalid.
 	MaxBytes int64
+
+	keepW bool // store W even when W⊥ is smaller (the complex path needs W)
 }
 
 // Subspace is a linear subspace of m×n real matrices with its stored basis.
@@ -96,6 +98,8 @@ type Subspace struct {
 	sumSq         float64 // proven upper bound on ‖S‖_F² (accurate.SumSqUpper of the stored rows)
 	rankKept      float64 // |R_kk| of the last pivot kept by the rank decision
 	rankLeft      float64 // norm of the first column left out (0 when none)
+
+	cx *complexPart // non-nil for a subspace of complex matrices (see NewComplex)
 }
 
 // MemoryLimit returns the working-storage limit in bytes given to New
@@ -160,7 +164,7 @@ func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	if err != nil {
 		return nil, err
 	}
-	return factor(ctx, b, in, tol, limit)
+	return factor(ctx, b, in, tol, limit, opt.keepW)
 }
 
 // validate checks opt and b in the order of the errors New documents
@@ -282,7 +286,7 @@ func unitScale(row []float64, nrm float64) (f float64, sh int) {
 // reconstruction error and the orthogonality of the stored vectors. It
 // consumes in.a. ctx is checked between the steps; when it is done the
 // result is discarded and its error returned, wrapped.
-func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64) (*Subspace, error) {
+func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64, keepW bool) (*Subspace, error) {
 	m, n := b.Rows, b.Cols
 	L := m * n
 	a := in.a
@@ -298,7 +302,7 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	if k > 0 {
 		w.rankKept = math.Abs(f.diag[k-1])
 	}
-	w.comp = L-k < k
+	w.comp = L-k < k && !keepW
 
 	var refl []float64
 	if w.comp {

@@ -1,0 +1,72 @@
+package rankone
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// Complex subspaces. A subspace built by subspace.NewComplex is the real
+// subspace W'' of 2m×2n matrices whose value is half the complex one
+// (h = 2h'', see package subspace), so every strategy runs on it unchanged
+// and its Results are in those real coordinates: the witness X = (re x,
+// im x), Y = (re y, im y), and bounds on d'' with d² = 2d''² − 1. The
+// functions below give the complex numbers; package segre reports them.
+
+// VerifyComplex returns a certified upper bound on the complex distance
+// d(x/‖x‖, y/‖y‖) for the real-coordinate witness (X, Y) of a complex
+// subspace: subspace.ComplexResidualBound at X, Y scaled by powers of two,
+// over a proven lower bound on ‖X‖‖Y‖ (as Verify). It returns an error for
+// a real subspace or a bad witness.
+func VerifyComplex(w *subspace.Subspace, x, y []float64) (float64, error) {
+	if w.Field() != subspace.Complex {
+		return 1, fmt.Errorf("%w: VerifyComplex of a real subspace", ErrLength)
+	}
+	if len(x) != w.Rows() || len(y) != w.Cols() {
+		return 1, fmt.Errorf("%w: x has %d entries, y %d; want %d and %d", ErrLength, len(x), len(y), w.Rows(), w.Cols())
+	}
+	xs, err := exactScale(x, "x")
+	if err != nil {
+		return 1, err
+	}
+	ys, err := exactScale(y, "y")
+	if err != nil {
+		return 1, err
+	}
+	num := w.ComplexResidualBound(xs, ys)
+	den := accurate.Down(accurate.SqrtDown(accurate.SumSqLower(xs)) * accurate.SqrtDown(accurate.SumSqLower(ys)))
+	if !(den > 0) {
+		return 1, nil
+	}
+	u := accurate.Up(num / den)
+	if !(u < 1) {
+		return 1, nil
+	}
+	return u, nil
+}
+
+// ComplexLower turns a certified lower bound on d”* (the realified
+// subspace's distance) into one on the complex d* = √(2d”*² − 1),
+// rounded down (0 when nothing is proven).
+func ComplexLower(lowerR float64) float64 {
+	l2 := accurate.Down(float64(lowerR * lowerR))
+	v := accurate.Down(2*l2 - 1) // 2·l2 is exact
+	if !(v > 0) {
+		return 0
+	}
+	return accurate.SqrtDown(v)
+}
+
+// ComplexUpper turns a certified upper bound on d”* into one on the
+// complex d* (rounded up; at most 1). VerifyComplex at the witness is
+// sharper for tiny distances.
+func ComplexUpper(upperR float64) float64 {
+	u2 := accurate.Up(float64(upperR * upperR))
+	v := accurate.Up(2*u2 - 1)
+	if !(v > 0) {
+		return 0
+	}
+	return math.Min(1, accurate.SqrtUp(v))
+}
