@@ -128,6 +128,29 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		entries[i] = rankone.Entry{Name: o.Name, Result: o.Result, Err: o.Err}
 	}
 	merged := rankone.Merge(w, entries)
+	if m.met && ctx.Err() == nil && merged.X != nil {
+		// The interval met the gap, which is relative on h*: members were
+		// stopped, and a witness of a tiny distance may still be far from
+		// the rounding level. One short polish by alternating maximisation (its Upper is
+		// Verify's, kept only if better) costs milliseconds.
+		pctx, cancel := context.WithTimeout(ctx, polishTime(opt.budget()))
+		px, py := append([]float64(nil), merged.X...), append([]float64(nil), merged.Y...)
+		(&rankone.ALS{}).Refine(pctx, w, px, py)
+		cancel()
+		// Better by the field's own certified distance (for a complex
+		// subspace the realified Upper cannot see a tiny distance improve).
+		dist := rankone.Verify
+		if w.Field() == subspace.Complex {
+			dist = rankone.VerifyComplex
+		}
+		u0, err0 := dist(w, merged.X, merged.Y)
+		if u1, err := dist(w, px, py); err == nil && (err0 != nil || u1 < u0) {
+			if pu, err := rankone.Verify(w, px, py); err == nil {
+				merged.X, merged.Y, merged.Upper = px, py, pu
+				merged.FoundBy += " (polished)"
+			}
+		}
+	}
 	rep := Report{Lower: merged.Lower, Upper: merged.Upper, X: merged.X, Y: merged.Y,
 		FoundBy: merged.FoundBy, LowerBy: merged.LowerBy, Members: outs, Elapsed: time.Since(begin)}
 	if w.Field() == subspace.Complex {
@@ -355,4 +378,10 @@ func inputSpan(w *subspace.Subspace, rep Report, th float64, terr error) *InputS
 		in.Note = "not proven (" + terr.Error() + "): the interval holds for the stored basis only"
 	}
 	return in
+}
+
+// polishTime is the time allowed for the final polish: a tenth of the
+// budget, at most 200 ms.
+func polishTime(budget time.Duration) time.Duration {
+	return min(budget/10, 200*time.Millisecond)
 }

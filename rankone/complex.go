@@ -47,6 +47,19 @@ func VerifyComplex(w *subspace.Subspace, x, y []float64) (float64, error) {
 	return u, nil
 }
 
+// rankKey is what witnesses are ranked by: their certified Upper, or for a
+// complex subspace their certified complex distance, which Upper (the
+// realified distance, √((1 + d²)/2)) cannot resolve below about 1e-8.
+func rankKey(w *subspace.Subspace, x, y []float64, upper float64) float64 {
+	if w.Field() != subspace.Complex {
+		return upper
+	}
+	if v, err := VerifyComplex(w, x, y); err == nil {
+		return v
+	}
+	return math.Inf(1)
+}
+
 // ComplexLower turns a certified lower bound on d”* (the realified
 // subspace's distance) into one on the complex d* = √(2d”*² − 1),
 // rounded down (0 when nothing is proven).

@@ -68,6 +68,7 @@ type startOut struct {
 	st    Stats
 	evals int
 	upper float64
+	key   float64 // what starts are ranked by: upper, or the complex distance (see rankKey)
 	done  bool
 }
 
@@ -104,7 +105,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		if err != nil {
 			u = 1
 		}
-		out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, done: true}
+		out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, key: rankKey(w, x, y, u), done: true}
 		mu.Lock()
 		if i >= len(outs) {
 			outs = append(outs, make([]startOut, i+1-len(outs))...)
@@ -131,7 +132,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		if !o.st.Status.Success() {
 			allOK = false
 		}
-		if bestIdx < 0 || o.upper < outs[bestIdx].upper {
+		if bestIdx < 0 || o.key < outs[bestIdx].key {
 			bestIdx = i
 		}
 		if o.st.Status == Converged {

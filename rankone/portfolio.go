@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"sync"
 	"time"
 
@@ -139,6 +140,7 @@ func (e Entry) Usable() bool {
 func Merge(w *subspace.Subspace, entries []Entry) Result {
 	res := Result{Upper: 1, Status: Converged}
 	found := false
+	bestKey := math.Inf(1)
 	for _, e := range entries {
 		r := e.Result
 		if !e.Usable() || !r.Status.Success() {
@@ -153,8 +155,8 @@ func Merge(w *subspace.Subspace, entries []Entry) Result {
 		res.Iterations += r.Iterations
 		res.Evaluations += r.Evaluations
 		res.Starts += r.Starts
-		if r.X != nil && (!found || r.Upper < res.Upper) {
-			found = true
+		if key := rankKey(w, r.X, r.Y, r.Upper); r.X != nil && (!found || key < bestKey) {
+			found, bestKey = true, key
 			res.X, res.Y, res.Upper, res.Value = r.X, r.Y, r.Upper, r.Value
 			res.FoundBy = e.Name
 			if r.FoundBy != "" {
