@@ -28,9 +28,9 @@ type ComplexInstance struct {
 	Degree int
 }
 
-// Realified returns the real instance of W'' (2m×2n real matrices, see
-// subspace.NewComplex), whose optimum is d''* = √((1 + d*²)/2) (derived in
-// package subspace: d² = 2d''² − 1). Real strategies and tests run on it.
+// Realified returns the real instance of W” (2m×2n real matrices, see
+// subspace.NewComplex), whose optimum is d”* = √((1 + d*²)/2) (derived in
+// package subspace: d² = 2d”² − 1). Real strategies and tests run on it.
 func (in ComplexInstance) Realified() Instance {
 	b := in.Basis
 	m, n, L := b.Rows, b.Cols, b.Rows*b.Cols

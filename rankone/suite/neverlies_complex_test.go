@@ -111,7 +111,7 @@ func TestNeverLiesComplex(t *testing.T) {
 }
 
 // The conformance suite on the realified instances (real subspaces of
-// 2m×2n matrices with the known d''* = √((1 + d*²)/2)): every strategy
+// 2m×2n matrices with the known d”* = √((1 + d*²)/2)): every strategy
 // keeps the Searcher contract on them.
 func TestConformanceRealified(t *testing.T) {
 	var insts []suite.Instance
