@@ -289,9 +289,10 @@ func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace
 	return w, rep, err
 }
 
-// CertifyFile reads a basis from a .npy or text file (subspace.ReadFile,
-// within Options.Subspace.MaxBytes) and certifies it as CertifyBasis does.
-// The file is not modified.
+// CertifyFile reads a basis from a .npy or text file (subspace.ReadInput,
+// within Options.Subspace.MaxBytes) and certifies it as CertifyBasis does,
+// or as CertifyComplex does when the data are complex or Options.Complex
+// is set. The file is not modified.
 func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subspace, Report, error) {
 	if err := opt.check(); err != nil {
 		return nil, Report{}, err
@@ -299,11 +300,14 @@ func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subsp
 	if opt.Progress != nil {
 		opt.Progress(Progress{Phase: Reading, Upper: 1})
 	}
-	b, err := subspace.ReadFile(path, opt.Subspace.MaxBytes)
+	in, err := subspace.ReadInput(path, opt.Subspace.MaxBytes)
 	if err != nil {
 		return nil, Report{}, err
 	}
-	return CertifyBasis(ctx, b, opt)
+	if in.Field == subspace.Complex || opt.Complex {
+		return CertifyComplex(ctx, in.AsComplex(), opt)
+	}
+	return CertifyBasis(ctx, in.Real, opt)
 }
 
 // bounds returns the merged interval on d*, translated to the complex
@@ -329,8 +333,19 @@ func complexReport(w *subspace.Subspace, rep *Report) {
 	if rep.Lower > rep.Upper { // cannot happen when both are proven; keep the report proper
 		rep.Lower = 0
 	}
+	if rep.Lower == 0 {
+		rep.LowerBy = ""
+	}
 	rep.Field = subspace.Complex
 	rep.XC, rep.YC = subspace.ComplexWitness(rep.X, rep.Y)
+	for i := range rep.Members {
+		r := &rep.Members[i].Result
+		u := rankone.ComplexUpper(r.Upper)
+		if v, err := rankone.VerifyComplex(w, r.X, r.Y); err == nil && v < u {
+			u = v
+		}
+		r.Lower, r.Upper = rankone.ComplexLower(r.Lower), u
+	}
 }
 
 // CertifyComplex builds the subspace spanned over C by the complex matrices

@@ -50,8 +50,11 @@ type Options struct {
 	// Members, when not nil, replaces the planned members (see Plan).
 	Members []rankone.Searcher
 	// Subspace holds the options of the orthonormalisation (rank tolerance,
-	// memory limit), used by CertifyBasis and CertifyFile.
+	// memory limit), used by CertifyBasis, CertifyComplex and CertifyFile.
 	Subspace subspace.Options
+	// Complex makes CertifyFile treat real data over C (complex data are
+	// always treated over C).
+	Complex bool
 	// Progress, if set, is called with the phase, the merged certified
 	// interval and the latest member report, at most every 200 ms while the
 	// search runs and at each change of phase.
@@ -199,7 +202,9 @@ type Report struct {
 	FoundBy, LowerBy string
 	// Stop says why the call returned.
 	Stop Stop
-	// Members are the members' outcomes, in plan order.
+	// Members are the members' outcomes, in plan order. For a complex
+	// subspace their Lower and Upper are translated to the complex distance
+	// (their witnesses stay in the real coordinates X = (re x, im x)).
 	Members []Member
 	// Input is the interval for the input's span (CertifyBasis and
 	// CertifyFile; nil from Certify).

@@ -413,3 +413,98 @@ func TestTextBOMAndArchives(t *testing.T) {
 		t.Errorf("binary junk: %q", err)
 	}
 }
+
+// Complex .npy: complex128 and complex64, C and Fortran order, little and
+// big endian, read back exactly (complex64 values chosen exact in float32;
+// derived: the component layout is NumPy's, real part first).
+func TestComplexNPY(t *testing.T) {
+	want := ComplexBasis{Count: 2, Rows: 2, Cols: 3, Data: []complex128{
+		1 + 2i, -0.5i, 3, 0.25 - 1i, 2 + 0.5i, -4,
+		0, 1i, -1 - 1i, 8, 0.125i, 6 + 6i,
+	}}
+	var buf bytes.Buffer
+	if err := WriteComplexNPY(&buf, want); err != nil {
+		t.Fatal(err)
+	}
+	check := func(name string, data []byte) {
+		t.Helper()
+		p := filepath.Join(t.TempDir(), name+".npy")
+		os.WriteFile(p, data, 0o644)
+		in, err := ReadInput(p, 0)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if in.Field != Complex || in.Complex.Count != 2 || in.Complex.Rows != 2 || in.Complex.Cols != 3 {
+			t.Fatalf("%s: %+v", name, in)
+		}
+		for i, z := range in.Complex.Data {
+			if z != want.Data[i] {
+				t.Fatalf("%s: entry %d = %v, want %v", name, i, z, want.Data[i])
+			}
+		}
+		if _, err := ReadFile(p, 0); !errors.Is(err, ErrFormat) {
+			t.Errorf("%s: ReadFile of complex data: %v, want ErrFormat", name, err)
+		}
+	}
+	check("c16-little-C", buf.Bytes())
+	// Other layouts, written here by hand: element (t, i, j) at t + r·(i + m·j)
+	// in Fortran order.
+	enc := func(order binary.AppendByteOrder, size int, fortran bool) []byte {
+		var out []byte
+		r, m, n := 2, 2, 3
+		for s := 0; s < r*m*n; s++ {
+			idx := s
+			if fortran {
+				t, q := s%r, s/r
+				idx = (t*m+q%m)*n + q/m
+			}
+			z := want.Data[idx]
+			for _, v := range []float64{real(z), imag(z)} {
+				if size == 8 {
+					out = order.AppendUint64(out, math.Float64bits(v))
+				} else {
+					out = order.AppendUint32(out, math.Float32bits(float32(v)))
+				}
+			}
+		}
+		return out
+	}
+	check("c16-big-Fortran", npyBytes(1, ">c16", true, "(2, 2, 3)", enc(binary.BigEndian, 8, true)))
+	check("c8-little-C", npyBytes(1, "<c8", false, "(2, 2, 3)", enc(binary.LittleEndian, 4, false)))
+	check("c8-big-Fortran-v2", npyBytes(2, ">c8", true, "(2, 2, 3)", enc(binary.BigEndian, 4, true)))
+}
+
+// The complex text format round-trips exactly (shortest decimals), accepts
+// the documented entry forms and refuses malformed ones, naming the line.
+func TestComplexText(t *testing.T) {
+	want := ComplexBasis{Count: 1, Rows: 2, Cols: 3, Data: []complex128{1 + 2i, -0.5i, 3, 1e-300 - 1e300i, 0.1 + 0.2i, -4}}
+	var buf bytes.Buffer
+	if err := WriteComplexText(&buf, want); err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(t.TempDir(), "c.txt")
+	os.WriteFile(p, buf.Bytes(), 0o644)
+	in, err := ReadInput(p, 0)
+	if err != nil || in.Field != Complex {
+		t.Fatalf("%v %+v", err, in)
+	}
+	for i, z := range in.Complex.Data {
+		if z != want.Data[i] {
+			t.Errorf("entry %d = %v, want %v", i, z, want.Data[i])
+		}
+	}
+	// Entry forms (values by hand).
+	forms := map[string]complex128{"2": 2, "-3i": -3i, "1.5-2e-3i": 1.5 - 2e-3i, "0+1i": 1i, "-1e-2+4E+1i": -1e-2 + 40i, "+.5-.5i": 0.5 - 0.5i}
+	for tok, z := range forms {
+		got, perr := parseComplex(tok)
+		if perr != nil || got != z {
+			t.Errorf("%q: %v (%v), want %v", tok, got, perr, z)
+		}
+	}
+	for _, tok := range []string{"i", "1+i", "1+2j", "2ii", "1+2i3", "0x1p3i", "inf+1i", "1e999i"} {
+		_, err := ReadText(strings.NewReader("1 1 2 complex\n1 "+tok+"\n"), 0)
+		if err == nil || !strings.Contains(err.Error(), "line 2") {
+			t.Errorf("%q: error %v, want one naming line 2", tok, err)
+		}
+	}
+}

@@ -53,6 +53,8 @@ type config struct {
 	tol      float64
 	maxBytes int64
 	gap      float64
+	field    string // "auto", "real" or "complex"
+	dims     [2]int // -dims m,n: reshape r vectors of length m·n (0: off)
 	file     string
 }
 
@@ -75,6 +77,15 @@ func newFlags(c *config) *flag.FlagSet {
 	fs.Float64Var(&c.tol, "tol", 0, "rank tolerance (0: max(mn, r)·2^-52)")
 	fs.Int64Var(&c.maxBytes, "maxbytes", 0, "memory limit in bytes for reading and orthonormalising (0: 4 GiB)")
 	fs.Float64Var(&c.gap, "gap", 1e-6, "requested relative gap on h*: the search stops when the certified interval meets it")
+	fs.StringVar(&c.field, "field", "auto", "field of the problem: auto (complex data over C, real data over R), real, or complex (real data over C)")
+	fs.Func("dims", "m,n: FILE holds r vectors of length m·n (one r×(m·n) array), each the row-major m×n matrix of a state on C^m⊗C^n or R^m⊗R^n", func(s string) error {
+		var m, n int
+		if k, err := fmt.Sscanf(s, "%d,%d", &m, &n); err != nil || k != 2 || m < 1 || n < 1 {
+			return fmt.Errorf("want two positive integers m,n, got %q", s)
+		}
+		c.dims = [2]int{m, n}
+		return nil
+	})
 	return fs
 }
 
@@ -115,6 +126,10 @@ func parse(args []string, stderr io.Writer) (config, int, bool) {
 		return bad("-gap must be in (0, 1), got %v", c.gap)
 	case c.maxBytes < 0:
 		return bad("-maxbytes must not be negative, got %d", c.maxBytes)
+	case c.field != "auto" && c.field != "real" && c.field != "complex":
+		return bad("-field must be auto, real or complex, got %q", c.field)
+	case c.dims != [2]int{} && len(files) == 0:
+		return bad("-dims needs a FILE")
 	case len(files) > 1:
 		return bad("at most one FILE, got %d: %s", len(files), strings.Join(files, ", "))
 	}
@@ -150,13 +165,17 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return code
 	}
-	var b subspace.Basis
+	in := subspace.Input{Field: subspace.Real, Real: demoBasis()}
 	source := "demo: " + demoTitle
-	if c.file == "" {
-		b = demoBasis()
-	} else {
+	if c.file != "" {
 		var err error
-		b, err = subspace.ReadFile(c.file, c.maxBytes)
+		in, err = subspace.ReadInput(c.file, c.maxBytes)
+		if err == nil && c.dims != [2]int{} {
+			in, err = reshape(in, c.dims[0], c.dims[1])
+		}
+		if err == nil && c.field == "real" && in.Field == subspace.Complex {
+			err = fmt.Errorf("%s: complex data, but -field real", c.file)
+		}
 		if err != nil {
 			fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
 			return exitBadInput
@@ -173,7 +192,14 @@ func run(args []string, stdout, stderr io.Writer) int {
 		pr = &progressLine{out: stderr}
 		opt.Progress = pr.show
 	}
-	w, rep, err := segre.CertifyBasis(ctx, b, opt)
+	var w *subspace.Subspace
+	var rep segre.Report
+	var err error
+	if in.Field == subspace.Complex || c.field == "complex" {
+		w, rep, err = segre.CertifyComplex(ctx, in.AsComplex(), opt)
+	} else {
+		w, rep, err = segre.CertifyBasis(ctx, in.Real, opt)
+	}
 	pr.end()
 	if err != nil {
 		fmt.Fprintf(stderr, "certify: %s\n", oneLine(err))
@@ -246,6 +272,25 @@ func (p *progressLine) end() {
 	}
 }
 
+// reshape reads a file of one r×(m·n) matrix as r matrices of m×n (-dims).
+func reshape(in subspace.Input, m, n int) (subspace.Input, error) {
+	rows, cols := in.Real.Rows, in.Real.Cols
+	count := in.Real.Count
+	if in.Field == subspace.Complex {
+		rows, cols, count = in.Complex.Rows, in.Complex.Cols, in.Complex.Count
+	}
+	if count != 1 || cols != m*n {
+		return in, fmt.Errorf("%w: -dims %d,%d wants one array of r rows of length %d, the file holds %d matrices of %d×%d",
+			subspace.ErrShape, m, n, m*n, count, rows, cols)
+	}
+	if in.Field == subspace.Complex {
+		in.Complex.Count, in.Complex.Rows, in.Complex.Cols = rows, m, n
+	} else {
+		in.Real.Count, in.Real.Rows, in.Real.Cols = rows, m, n
+	}
+	return in, nil
+}
+
 func oneLine(err error) string {
 	return strings.ReplaceAll(err.Error(), "\n", " ")
 }
@@ -292,8 +337,9 @@ type jsonOut struct {
 	InputUpper       *number        `json:"input_upper"`
 	InputDistance    *number        `json:"input_distance"`
 	InputNote        string         `json:"input_note,omitempty"`
-	X                []float64      `json:"x"`
-	Y                []float64      `json:"y"`
+	Field            string         `json:"field"`
+	X                any            `json:"x"`
+	Y                any            `json:"y"`
 	FoundBy          string         `json:"found_by"`
 	LowerBy          string         `json:"lower_by"`
 	Status           string         `json:"status"`
@@ -307,8 +353,11 @@ func writeJSON(stdout io.Writer, w *subspace.Subspace, rep segre.Report, source 
 	out := jsonOut{Source: source, Rows: w.Rows(), Cols: w.Cols(), Inputs: given, Dim: w.Dim(), Tol: number(w.RankTol()),
 		StoresComplement: w.StoresComplement(), Reconstruction: number(rec), Orthogonality: number(w.OrthogonalityBound()),
 		Lower: number(rep.Lower), Upper: number(rep.Upper), ValueLower: number(rep.ValueLower), ValueUpper: number(rep.ValueUpper),
-		Gap: number(rep.Gap), X: rep.X, Y: rep.Y,
+		Gap: number(rep.Gap), Field: rep.Field.String(), X: rep.X, Y: rep.Y,
 		FoundBy: rep.FoundBy, LowerBy: rep.LowerBy, Status: rep.Stop.String(), Seconds: number(rep.Elapsed.Seconds())}
+	if rep.Field == subspace.Complex {
+		out.X, out.Y = pairs(rep.XC), pairs(rep.YC)
+	}
 	if in := rep.Input; in != nil && in.Proven {
 		l, u, th := number(in.Lower), number(in.Upper), number(in.Distance)
 		out.InputLower, out.InputUpper, out.InputDistance = &l, &u, &th
@@ -328,6 +377,15 @@ func writeJSON(stdout io.Writer, w *subspace.Subspace, rep segre.Report, source 
 	return enc.Encode(out)
 }
 
+// pairs writes complex numbers as [re, im] pairs for JSON.
+func pairs(v []complex128) [][2]float64 {
+	out := make([][2]float64, len(v))
+	for i, z := range v {
+		out[i] = [2]float64{real(z), imag(z)}
+	}
+	return out
+}
+
 func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source string) {
 	given, zeros := w.Inputs()
 	rec, orth := w.BackwardError()
@@ -336,11 +394,16 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 		stored = "its orthogonal complement"
 	}
 	fmt.Fprintf(out, "input      %s\n", source)
-	fmt.Fprintf(out, "subspace   %d matrices of %d×%d", given, w.Rows(), w.Cols())
+	m, n := w.ComplexShape()
+	field := "real"
+	if w.Field() == subspace.Complex {
+		field = "complex"
+	}
+	fmt.Fprintf(out, "subspace   %d %s matrices of %d×%d", given, field, m, n)
 	if zeros > 0 {
 		fmt.Fprintf(out, " (%d zero)", zeros)
 	}
-	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.Dim(), w.RankTol(), stored)
+	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.ComplexDim(), w.RankTol(), stored)
 	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
 	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(rep.Lower, 10), up(rep.Upper, 10))
 	if in := rep.Input; in != nil && in.Proven {
@@ -351,8 +414,14 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 	}
 	fmt.Fprintf(out, "value      h* in [%s, %s]   (h = ‖P_W(x yᵀ)‖², h* = 1 − d*²), relative gap %s\n",
 		down(rep.ValueLower, 10), up(rep.ValueUpper, 10), up(rep.Gap, 2))
-	fmt.Fprintf(out, "witness    x = %s\n", vecString(rep.X))
-	fmt.Fprintf(out, "           y = %s\n", vecString(rep.Y))
+	if rep.Field == subspace.Complex {
+		fmt.Fprintf(out, "witness    x = %s\n", cvecString(rep.XC))
+		fmt.Fprintf(out, "           y = %s\n", cvecString(rep.YC))
+		fmt.Fprintf(out, "           (complex, unit; x yᵀ without conjugation: vec(x yᵀ) = x⊗y)\n")
+	} else {
+		fmt.Fprintf(out, "witness    x = %s\n", vecString(rep.X))
+		fmt.Fprintf(out, "           y = %s\n", vecString(rep.Y))
+	}
 	fmt.Fprintf(out, "found by   %s\n", rep.FoundBy)
 	lb := rep.LowerBy
 	if lb == "" {
@@ -399,6 +468,26 @@ func vecString(v []float64) string {
 	}
 	if len(v) > 8 {
 		fmt.Fprintf(&b, " … (%d more)", len(v)-6)
+	}
+	b.WriteString("]")
+	return b.String()
+}
+
+func cvecString(v []complex128) string {
+	var b strings.Builder
+	b.WriteString("[")
+	show := v
+	if len(v) > 6 {
+		show = v[:4]
+	}
+	for i, z := range show {
+		if i > 0 {
+			b.WriteString(" ")
+		}
+		fmt.Fprintf(&b, "%.5f%+.5fi", real(z), imag(z))
+	}
+	if len(v) > 6 {
+		fmt.Fprintf(&b, " … (%d more)", len(v)-4)
 	}
 	b.WriteString("]")
 	return b.String()

@@ -404,3 +404,56 @@ func twoRowSpanDistance(a, b []float64) float64 {
 	}
 	return math.Sqrt(1 - h((lo+hi)/2))
 }
+
+// Complex input end to end: span{I, J} over C contains the rank-one
+// (I − iJ)/2 (d* = 0, derived in suite.PencilIJ), over R it does not
+// (d* = 1/√2); the field comes from the data or -field; JSON gives the
+// witness as [re, im] pairs; -dims reads r vectors of length m·n; bad
+// combinations exit 2.
+func TestComplexCommand(t *testing.T) {
+	dir := t.TempDir()
+	cfile := filepath.Join(dir, "ij.txt")
+	os.WriteFile(cfile, []byte("2 2 2 complex\n1 0\n0 1\n0 -1\n1 0\n"), 0o644)
+	rfile := filepath.Join(dir, "ijr.txt")
+	os.WriteFile(rfile, []byte("2 2 2\n1 0\n0 1\n0 -1\n1 0\n"), 0o644)
+	for _, c := range []struct {
+		args    []string
+		complex bool
+		zero    bool
+	}{
+		{[]string{cfile}, true, true},
+		{[]string{"-field", "complex", rfile}, true, true},
+		{[]string{rfile}, false, false},
+	} {
+		code, out, errs := runCmd(append([]string{"-json", "-time", "2s"}, c.args...)...)
+		if code != 0 {
+			t.Fatalf("%v: exit %d: %s", c.args, code, errs)
+		}
+		var v map[string]any
+		if err := json.Unmarshal([]byte(out), &v); err != nil {
+			t.Fatal(err)
+		}
+		if (v["field"] == "complex") != c.complex {
+			t.Errorf("%v: field %v", c.args, v["field"])
+		}
+		up, lo := v["upper"].(float64), v["lower"].(float64)
+		if c.zero && up > 1e-12 || !c.zero && lo < 0.7071 {
+			t.Errorf("%v: [%v, %v]", c.args, lo, up)
+		}
+		x := v["x"].([]any)
+		if _, pair := x[0].([]any); pair != c.complex {
+			t.Errorf("%v: witness entries as pairs: %v", c.args, pair)
+		}
+	}
+	// -dims: two state vectors of length 4 = 2·2 as one 2×4 array.
+	vfile := filepath.Join(dir, "states.txt")
+	os.WriteFile(vfile, []byte("1 2 4 complex\n1 0 0 1\n0 -1 1 0\n"), 0o644)
+	if code, out, errs := runCmd("-json", "-dims", "2,2", vfile); code != 0 || !strings.Contains(out, `"field": "complex"`) {
+		t.Errorf("-dims: exit %d %s %s", code, out, errs)
+	}
+	for _, args := range [][]string{{"-field", "real", cfile}, {"-field", "quaternion", rfile}, {"-dims", "3,3", vfile}, {"-dims", "2", vfile}, {"-dims", "2,2"}} {
+		if code, out, errs := runCmd(args...); code != 2 || out != "" || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
+			t.Errorf("%v: exit %d, stdout %q, stderr %q; want 2 and one line", args, code, out, errs)
+		}
+	}
+}
