@@ -3,6 +3,7 @@ package net
 import (
 	"context"
 	"fmt"
+	"math/rand/v2"
 	"testing"
 
 	"github.com/segre-lab/segre/rankone"
@@ -75,6 +76,40 @@ func BenchmarkWorkers(b *testing.B) {
 					b.Fatal(err)
 				}
 			}
+		})
+	}
+}
+
+// BenchmarkBranchBoundComplex reports the time (ns/op) and cells to
+// certify a relative gap of 1e-6 on h* for complex Gaussian subspaces of
+// 2×n matrices (n = 16, 64) of complex dimension n/2, below the critical
+// dimension n where rank-one points appear (so d* > 0 generically and the
+// bound has work to do; at dimension n, d* = 0 and the trivial bound
+// h ≤ 1 closes the gap at once): branch-and-bound over the phase-reduced
+// sphere of dimension 3 (x ∈ C², im x₁ = 0). Target: under 10 s each on
+// this project's 2-core machine. It fails if the gap is not reached.
+func BenchmarkBranchBoundComplex(b *testing.B) {
+	for _, n := range []int{16, 64} {
+		rng := rand.New(rand.NewPCG(uint64(n), 99))
+		k := n / 2
+		d := make([]complex128, k*2*n)
+		for i := range d {
+			d[i] = complex(rng.NormFloat64(), rng.NormFloat64())
+		}
+		w, err := subspace.NewComplex(context.Background(), subspace.ComplexBasis{Count: k, Rows: 2, Cols: n, Data: d}, subspace.Options{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(fmt.Sprintf("2x%d", n), func(b *testing.B) {
+			var nodes int
+			for b.Loop() {
+				r, err := (&BranchBound{}).Search(context.Background(), w)
+				if err != nil || r.Status != rankone.GapReached {
+					b.Fatalf("status %v, err %v", r.Status, err)
+				}
+				nodes = r.Evaluations
+			}
+			b.ReportMetric(float64(nodes), "evals/op")
 		})
 	}
 }

@@ -34,6 +34,12 @@ import (
 func FlatteningBound(ctx context.Context, w *subspace.Subspace) (hUpper, lower float64) {
 	h1, h2 := FlatteningBounds(ctx, w)
 	hUpper = math.Min(1, math.Min(h1, h2))
+	if w.Field() == subspace.Complex {
+		// W'' ⊂ range(Nᵀ) exactly (every stored vector has the exact
+		// block form [[a, b], [b, −a]]), so h'' ≤ ‖N(X⊗Y)‖² = 1/2 for unit
+		// X, Y (derived in package subspace): the complex h ≤ 1.
+		hUpper = math.Min(hUpper, 0.5)
+	}
 	if hUpper < 0 {
 		hUpper = 0
 	}
