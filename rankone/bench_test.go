@@ -37,7 +37,7 @@ func BenchmarkPlanted(b *testing.B) {
 
 // BenchmarkPlantedComplex is BenchmarkPlanted over C: one Search of each
 // local strategy from the spectral start on complex planted instances with
-// m = n = 32 and k = n (run on the realified subspace W'' of 64×64 real
+// m = n = 32 and k = n (run on the realified subspace W” of 64×64 real
 // matrices), failing unless the certified complex distance at the witness
 // (rankone.VerifyComplex) is at most 1e-10. The target: at most 3×
 // the real time on the same m, n, k (BenchmarkPlanted/n32), reported here
