@@ -2,14 +2,19 @@ package segre
 
 import (
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
+	"io"
 	"math"
+	"os"
 	"sync"
 	"time"
 
 	"github.com/segre-lab/segre/internal/accurate"
 	"github.com/segre-lab/segre/net"
+	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/sos"
 	"github.com/segre-lab/segre/subspace"
@@ -89,6 +94,24 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	}
 	begin := time.Now()
 	members := Plan(w, opt)
+	var cover *net.Cover
+	var cert *sos.Certificate
+	if opt.Proof {
+		for _, s := range members {
+			switch mb := s.(type) {
+			case *net.BranchBound:
+				if mb.Record == nil {
+					cover = &net.Cover{}
+					mb.Record = cover
+				}
+			case *sos.Bound:
+				if mb.Keep == nil {
+					cert = &sos.Certificate{}
+					mb.Keep = cert
+				}
+			}
+		}
+	}
 	rctx, cancelBudget := context.WithTimeout(ctx, opt.budget())
 	defer cancelBudget()
 	sctx, stopMembers := context.WithCancel(rctx)
@@ -153,6 +176,13 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	}
 	rep := Report{Lower: merged.Lower, Upper: merged.Upper, X: merged.X, Y: merged.Y,
 		FoundBy: merged.FoundBy, LowerBy: merged.LowerBy, Members: outs, Elapsed: time.Since(begin)}
+	if opt.Proof && ctx.Err() == nil {
+		ev := proof.Evidence{W: w, InputSHA256: opt.inputHash, X: rep.X, Y: rep.Y, Cover: cover}
+		if cert != nil && cert.K != nil {
+			ev.Certificate = cert
+		}
+		rep.Proof, rep.ProofError = proof.Build(ctx, ev)
+	}
 	if w.Field() == subspace.Complex {
 		complexReport(w, &rep)
 	}
@@ -304,6 +334,11 @@ func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subsp
 	if err != nil {
 		return nil, Report{}, err
 	}
+	if opt.Proof {
+		if opt.inputHash, err = fileHash(path); err != nil {
+			return nil, Report{}, err
+		}
+	}
 	if in.Field == subspace.Complex || opt.Complex {
 		return CertifyComplex(ctx, in.AsComplex(), opt)
 	}
@@ -399,4 +434,18 @@ func inputSpan(w *subspace.Subspace, rep Report, th float64, terr error) *InputS
 // budget, at most 200 ms.
 func polishTime(budget time.Duration) time.Duration {
 	return min(budget/10, 200*time.Millisecond)
+}
+
+// fileHash returns the hex SHA-256 of the file at path, streamed.
+func fileHash(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
 }

@@ -13,7 +13,8 @@ import (
 // module packages listed for it (non-test imports; "internal/" allows every
 // internal package). Nothing imports upward.
 var layers = map[string][]string{
-	"":                   {"net", "sos", "rankone", "subspace", "internal/"},
+	"":                   {"proof", "net", "sos", "rankone", "subspace", "internal/"},
+	"proof":              {"net", "sos", "rankone", "subspace", "internal/"},
 	"net":                {"rankone", "subspace", "internal/"},
 	"sos":                {"rankone", "subspace", "internal/"},
 	"rankone":            {"subspace", "internal/"},

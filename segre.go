@@ -25,6 +25,7 @@ import (
 	"fmt"
 	"time"
 
+	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/subspace"
 )
@@ -55,10 +56,16 @@ type Options struct {
 	// Complex makes CertifyFile treat real data over C (complex data are
 	// always treated over C).
 	Complex bool
+	// Proof makes Certify keep the evidence (the level-one certificate,
+	// branch-and-bound's cover) and return a re-checkable proof of the
+	// interval in Report.Proof (package proof; real subspaces only).
+	Proof bool
 	// Progress, if set, is called with the phase, the merged certified
 	// interval and the latest member report, at most every 200 ms while the
 	// search runs and at each change of phase.
 	Progress func(Progress)
+
+	inputHash string // set by CertifyFile for the proof
 }
 
 func (o Options) check() error {
@@ -209,6 +216,10 @@ type Report struct {
 	// Input is the interval for the input's span (CertifyBasis and
 	// CertifyFile; nil from Certify).
 	Input *InputSpan
+	// Proof is the re-checkable proof (Options.Proof), or nil; ProofError
+	// says why none could be built.
+	Proof      *proof.Proof
+	ProofError error
 	// Elapsed is the time of the search.
 	Elapsed time.Duration
 }

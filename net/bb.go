@@ -62,6 +62,13 @@ type BranchBound struct {
 	// Progress, if set, is called at most every 200 ms with nodes processed,
 	// frontier size and the current bounds.
 	Progress func(rankone.Progress)
+	// Record, if non-nil, receives the cover of the run (see Cover) when the
+	// search ends without cancellation (gap reached or a limit); after a
+	// cancelled search it is left empty (Cells nil). CheckCover re-checks
+	// it. Every leaf is kept (about 80 + 16(D−1) bytes each, its box shared
+	// with the search), so the record grows with the cells evaluated: it is
+	// bounded by MaxNodes, not by MaxFrontier or the subspace's MemoryLimit.
+	Record *Cover
 }
 
 var _ rankone.Searcher = (*BranchBound)(nil)
@@ -95,6 +102,7 @@ type cell struct {
 	lo, hi []float64 // box in the d−1 free face coordinates
 	fbar   float64   // proven upper bound of λmax at the centre direction
 	est    float64
+	guess  float64 // the estimate of λmax(H(c)) at the unnormalised centre c that proved fbar
 	r      float64
 	key    float64
 	vec    []float32 // best exact-side vector at the centre: the children's warm start
@@ -165,7 +173,10 @@ func (cl *cell) children() []*cell {
 // (settings, incumbent, Λ, first batch), then step (evaluate, merge and
 // re-bound a batch) and test for stop until either ends the search.
 func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
-	r := &bbRun{b: b, w: w}
+	r := &bbRun{b: b, w: w, record: b.Record != nil}
+	if b.Record != nil {
+		*b.Record = Cover{}
+	}
 	if err := r.setup(ctx); err != nil {
 		return r.res, err
 	}
@@ -174,7 +185,11 @@ func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone
 			break
 		}
 	}
-	return r.result(ctx)
+	res, err := r.result(ctx)
+	if b.Record != nil && err == nil && res.Status != rankone.Cancelled {
+		*b.Record = r.cover()
+	}
+	return res, err
 }
 
 // topBound is the largest key over the frontier and the pruned cells: a

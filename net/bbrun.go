@@ -51,6 +51,12 @@ type bbRun struct {
 
 	status rankone.Status
 	limit  rankone.Limit // which budget stopped a search that did not reach its gap
+
+	// With BranchBound.Record set, leaves collects every pruned cell (each
+	// is a leaf: pruned cells are never split) and, for d = 1, the single
+	// point cell; cover adds the frontier at the end.
+	record bool
+	leaves []CoverCell
 }
 
 // batch is the number of splits a batch holds at most (see choose).
@@ -189,7 +195,7 @@ func (r *bbRun) evaluate(ctx context.Context, cells []*cell) (vecs [][]float64) 
 		for j, a := range cl.vec {
 			v[j] = float64(a)
 		}
-		cl.est, cl.fbar = s.value(c, v)
+		cl.est, cl.fbar, cl.guess = s.value(c, v)
 		cl.vec = make([]float32, p)
 		for j, a := range v {
 			cl.vec[j] = float32(a)
@@ -238,6 +244,7 @@ func (r *bbRun) point(ctx context.Context) {
 	}
 	r.nodes = 1
 	r.lam = math.Min(r.lam, c.fbar)
+	r.keep(c)
 	x, y := r.sd.witness([]float64{1}, vecs[0])
 	if u, err := rankone.Verify(r.w, x, y); err == nil && u < r.res.Upper {
 		r.res.X, r.res.Y, r.res.Upper = x, y, u
@@ -297,7 +304,28 @@ func (r *bbRun) pruned(c *cell) bool {
 		return false
 	}
 	r.maxPruned = math.Max(r.maxPruned, c.key)
+	r.keep(c)
 	return true
+}
+
+// keep records the leaf c when the run records its cover. The box is
+// shared, not copied: a cell's box is never modified once made.
+func (r *bbRun) keep(c *cell) {
+	if r.record {
+		r.leaves = append(r.leaves, CoverCell{Face: c.face, Lo: c.lo, Hi: c.hi, Guess: c.guess})
+	}
+}
+
+// cover returns the cover of a finished run: the recorded leaves, then the
+// frontier in heap order. Call it only after a search that was not
+// cancelled (a cancelled batch leaves the children of popped cells out).
+func (r *bbRun) cover() Cover {
+	for _, c := range r.front {
+		r.keep(c)
+	}
+	cells := r.leaves
+	r.leaves = nil
+	return Cover{D: r.d, OnX: r.sd.onX, Cells: cells}
 }
 
 // rebound lowers Λ after a merged batch.

@@ -106,29 +106,8 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 	if len(c) != d || len(vec) != p {
 		panic("net: BlockForm.MaxEig needs vectors of lengths " + strconv.Itoa(d) + " and " + strconv.Itoa(p))
 	}
-	a := make([]float64, p*p)
-	var delta float64
-	for i := 0; i < d; i++ {
-		for j := 0; j < d; j++ {
-			cij := c[i] * c[j]
-			if cij == 0 {
-				continue
-			}
-			blk := f.blocks[(i*d+j)*p*p : (i*d+j+1)*p*p]
-			blas64.Axpy(cij, blas64.Vector{N: p * p, Data: blk, Inc: 1}, blas64.Vector{N: p * p, Data: a, Inc: 1})
-			delta = accurate.AddUp(delta, accurate.MulUp(accurate.MulUp(math.Abs(c[i]), math.Abs(c[j])), f.errs[i*d+j]))
-		}
-	}
-	// The symmetric matrix used is the upper triangle of A reflected; its
-	// error's entries are bounded by the symmetric majorant behind δ taken at
-	// (min(i,j), max(i,j)), whose Frobenius norm is at most √2 times δ.
-	delta = accurate.MulUp(delta, 1.4143)
-	am := mat.NewSymDense(p, a)
-	cc := accurate.SumSqUpper(c)
-	var cEst float64
-	for _, v := range c {
-		cEst += float64(v * v)
-	}
+	a, delta := f.assemble(c)
+	cEst := sumSqEst(c)
 	// The estimate uses the full float matrix with the (assembly) general
 	// matrix-vector product; only the bound needs the exact symmetric form.
 	full := blas64.General{Rows: p, Cols: p, Stride: p, Data: append([]float64(nil), a...)}
@@ -145,19 +124,72 @@ func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
 		}
 	}
 	est, _ = eigen.Top(apply, vec, 0, 0, 1e-10)
+	return est, f.upper(c, a, delta, cEst, est)
+}
+
+// maxEigUpper is the proven part of MaxEig: the upper bound derived there,
+// with est (an estimate of the form's λmax at c) only as the verified
+// test's starting point. Any est, even NaN or ±Inf, gives a valid bound; a
+// poor one gives a weaker bound. It runs no eigensolver, so a bound
+// recorded with its estimate is recomputed bit for bit. It panics if
+// len(c) ≠ d.
+func (f *BlockForm) maxEigUpper(c []float64, est float64) float64 {
+	if len(c) != f.d {
+		panic("net: BlockForm bound needs a vector of length " + strconv.Itoa(f.d))
+	}
+	a, delta := f.assemble(c)
+	return f.upper(c, a, delta, sumSqEst(c), est)
+}
+
+// assemble returns A = fl(Σ_ab c_a c_b M̂_ab) (p×p, row-major) and the
+// bound δ on its error derived on MaxEig, √2 factor included.
+func (f *BlockForm) assemble(c []float64) (a []float64, delta float64) {
+	d, p := f.d, f.p
+	a = make([]float64, p*p)
+	for i := 0; i < d; i++ {
+		for j := 0; j < d; j++ {
+			cij := c[i] * c[j]
+			if cij == 0 {
+				continue
+			}
+			blk := f.blocks[(i*d+j)*p*p : (i*d+j+1)*p*p]
+			blas64.Axpy(cij, blas64.Vector{N: p * p, Data: blk, Inc: 1}, blas64.Vector{N: p * p, Data: a, Inc: 1})
+			delta = accurate.AddUp(delta, accurate.MulUp(accurate.MulUp(math.Abs(c[i]), math.Abs(c[j])), f.errs[i*d+j]))
+		}
+	}
+	// The symmetric matrix used is the upper triangle of A reflected; its
+	// error's entries are bounded by the symmetric majorant behind δ taken at
+	// (min(i,j), max(i,j)), whose Frobenius norm is at most √2 times δ.
+	return a, accurate.MulUp(delta, 1.4143)
+}
+
+// sumSqEst is the plain floating-point Σ c_i², an estimate of ‖c‖².
+func sumSqEst(c []float64) float64 {
+	var s float64
+	for _, v := range c {
+		s += float64(v * v)
+	}
+	return s
+}
+
+// upper finishes the bound of MaxEig from the assembled A, its error bound
+// δ, the estimate cEst of ‖c‖² and the eigenvalue estimate est.
+func (f *BlockForm) upper(c, a []float64, delta, cEst, est float64) float64 {
 	for _, v := range c {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return est, math.Inf(1)
+			return math.Inf(1)
 		}
 	}
 	if f.eta >= 0.5 {
-		return est, math.Inf(1)
+		return math.Inf(1)
 	}
+	am := mat.NewSymDense(f.p, a)
 	if !f.comp {
 		lam := accurate.AddUp(verified.MaxEigUpper(am, est), delta)
-		return est, accurate.Up(math.Max(lam, 0) / accurate.Down(1-f.eta))
+		return accurate.Up(math.Max(lam, 0) / accurate.Down(1-f.eta))
 	}
+	cc := accurate.SumSqUpper(c)
 	lmin := accurate.Down(verified.MinEigLower(am, cEst-est) - delta)
 	sub := accurate.Down(math.Max(lmin, 0) / accurate.Up(1+f.eta))
-	return est, math.Max(0, accurate.Up(cc-sub))
+	return math.Max(0, accurate.Up(cc-sub))
 }

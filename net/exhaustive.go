@@ -96,7 +96,7 @@ func (e *Exhaustive) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 		for idx := ci * chunk; idx < min((ci+1)*chunk, total); idx++ {
 			NetPoint(g, sd.d, N, idx)
 			clear(v)
-			est, up := s.value(g, v)
+			est, up, _ := s.value(g, v)
 			pt.maxUp = max(pt.maxUp, up)
 			if est > pt.bestEst {
 				pt.bestEst, pt.bestIdx, pt.bestVec = est, idx, append(pt.bestVec[:0], v...)

@@ -50,11 +50,10 @@ func MaxEigG(w *subspace.Subspace, y, vec []float64) (est, upper float64) {
 	return maxEig(w, w.GOperator(y), y, vec)
 }
 
+// maxEig is MaxEigH and MaxEigG for the operator op = H(u) or G(u): the
+// estimate by Lanczos (eigen.Top), then maxEigUpper from that estimate.
 func maxEig(w *subspace.Subspace, op *subspace.Operator, u, vec []float64) (est, upper float64) {
-	fc := rawstore.FactorOf(op)
-	p, s, z := fc.P, fc.S, fc.Z
-	st := w.Stored()
-	comp, eta := st.Complement(), st.OrthogonalityBound()
+	p := rawstore.FactorOf(op).P
 	v := make([]float64, p)
 	if vec != nil {
 		if len(vec) != p {
@@ -66,20 +65,33 @@ func maxEig(w *subspace.Subspace, op *subspace.Operator, u, vec []float64) (est,
 	if vec != nil {
 		copy(vec, v)
 	}
+	return est, maxEigUpper(w, op, u, est)
+}
+
+// maxEigUpper is the proven part of maxEig: the upper bound of λmax(op)
+// derived on MaxEigH, with est (an estimate of λmax(op)) only as the
+// verified test's starting point. Any est, even NaN or ±Inf, gives a valid
+// bound; a poor one gives a weaker bound. It runs no eigensolver, so a
+// bound recorded with its estimate can be recomputed bit for bit.
+func maxEigUpper(w *subspace.Subspace, op *subspace.Operator, u []float64, est float64) float64 {
+	fc := rawstore.FactorOf(op)
+	p, s, z := fc.P, fc.S, fc.Z
+	st := w.Stored()
+	comp, eta := st.Complement(), st.OrthogonalityBound()
 	for _, a := range u {
 		if math.IsNaN(a) || math.IsInf(a, 0) {
-			return est, math.Inf(1)
+			return math.Inf(1)
 		}
 	}
 	if eta >= 0.5 {
-		return est, math.Inf(1)
+		return math.Inf(1)
 	}
 	uu := accurate.SumSqUpper(u)
 	if s == 0 {
 		if comp {
-			return est, uu // H = ‖x‖²I exactly
+			return uu // H = ‖x‖²I exactly
 		}
-		return est, 0
+		return 0
 	}
 	other := w.Rows() * w.Cols() / p // the length of u
 	sf := accurate.SqrtUp(st.SumSqUpper())
@@ -108,7 +120,7 @@ func maxEig(w *subspace.Subspace, op *subspace.Operator, u, vec []float64) (est,
 		lam := accurate.AddUp(verified.MaxEigUpper(mhat, est), form)
 		sig := accurate.AddUp(accurate.SqrtUp(math.Max(lam, 0)), e)
 		b := accurate.MulUp(sig, sig)
-		return est, accurate.Up(b / accurate.Down(1-eta))
+		return accurate.Up(b / accurate.Down(1-eta))
 	}
 	var sigLow float64
 	if s >= p {
@@ -118,5 +130,5 @@ func maxEig(w *subspace.Subspace, op *subspace.Operator, u, vec []float64) (est,
 		}
 	}
 	sub := accurate.Down(accurate.Down(sigLow*sigLow) / accurate.Up(1+eta))
-	return est, math.Max(0, accurate.Up(uu-math.Max(sub, 0)))
+	return math.Max(0, accurate.Up(uu-math.Max(sub, 0)))
 }

@@ -51,25 +51,52 @@ func newSide(w *subspace.Subspace) side {
 }
 
 // value returns an estimate and a proven upper bound of s(ĉ)² =
-// λmax(H(c))/‖c‖² for the direction ĉ of the float point c, and writes the
-// best vector of the exact side into vec.
-func (s *side) value(c, vec []float64) (est, upper float64) {
+// λmax(H(c))/‖c‖² for the direction ĉ of the float point c, and raw, the
+// estimate of λmax(H(c)) at c itself (not normalised) from which the bound
+// was proven: bound(c, raw) recomputes upper bit for bit. It writes the best
+// vector of the exact side into vec.
+func (s *side) value(c, vec []float64) (est, upper, raw float64) {
 	s.evals++
 	c = s.lift(c)
-	var e, u float64
+	var u float64
 	if s.form != nil {
-		e, u = s.form.MaxEig(c, vec)
+		raw, u = s.form.MaxEig(c, vec)
 	} else if s.onX {
-		e, u = MaxEigH(s.w, c, vec)
+		raw, u = MaxEigH(s.w, c, vec)
 	} else {
-		e, u = MaxEigG(s.w, c, vec)
+		raw, u = MaxEigG(s.w, c, vec)
 	}
-	cc := accurate.SumSqLower(c)
-	var ccEst float64
-	for _, v := range c {
-		ccEst += float64(v * v)
+	return raw / sumSqEst(c), s.normalised(c, u), raw
+}
+
+// bound returns the proven upper bound of s(ĉ)² that value returns for the
+// float point c, from raw, an estimate of λmax(H(c)) used only as the
+// verified test's starting point (value's raw gives the same bound bit for
+// bit; any other raw, even NaN, still gives a valid one). It runs no
+// eigensolver and does not count an evaluation; it is safe for concurrent
+// use.
+func (s *side) bound(c []float64, raw float64) float64 {
+	c = s.lift(c)
+	return s.normalised(c, s.upper(c, raw))
+}
+
+// upper returns the proven upper bound of λmax(H(c)) (or λmax(G(c))) for
+// the lifted point c from the estimate raw.
+func (s *side) upper(c []float64, raw float64) float64 {
+	switch {
+	case s.form != nil:
+		return s.form.maxEigUpper(c, raw)
+	case s.onX:
+		return maxEigUpper(s.w, s.w.HOperator(c), c, raw)
+	default:
+		return maxEigUpper(s.w, s.w.GOperator(c), c, raw)
 	}
-	return e / ccEst, accurate.Up(u / cc)
+}
+
+// normalised returns u/‖c‖² rounded upwards (u ≥ λmax(H(c)) proven, so the
+// result bounds λmax(H(ĉ)) = λmax(H(c))/‖c‖², H being quadratic in c).
+func (s *side) normalised(c []float64, u float64) float64 {
+	return accurate.Up(u / accurate.SumSqLower(c))
 }
 
 // witness returns (x, y) from a net-side point c and exact-side vector v.

@@ -207,6 +207,9 @@ type Bound struct {
 	// of the relaxation's value, not certified: only the certificate
 	// verified at the end proves a bound).
 	Progress func(rankone.Progress)
+	// Keep, if non-nil, receives the certificate whose verification gave
+	// Lower (left unchanged when none was verified), for proof files.
+	Keep *Certificate
 }
 
 var _ rankone.Searcher = (*Bound)(nil)
@@ -241,9 +244,13 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if sol.Status != sdp.Optimal {
 		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
 	}
-	if hb, verr := Verify(w, rel.Certificate(sol.Y)); verr == nil {
+	cert := rel.Certificate(sol.Y)
+	if hb, verr := Verify(w, cert); verr == nil {
 		if lo := rankone.DistanceLower(hb); lo > 0 {
 			res.Lower, res.LowerBy = lo, "sos level 1"
+			if b.Keep != nil {
+				*b.Keep = cert
+			}
 		}
 	}
 	// Round the moment matrix to a point.

@@ -20,12 +20,14 @@ import (
 	"math"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
 
 	"github.com/segre-lab/segre"
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -55,6 +57,7 @@ type config struct {
 	gap      float64
 	field    string // "auto", "real" or "complex"
 	dims     [2]int // -dims m,n: reshape r vectors of length m·n (0: off)
+	proof    string // -proof FILE: write a re-checkable proof there
 	file     string
 }
 
@@ -77,6 +80,7 @@ func newFlags(c *config) *flag.FlagSet {
 	fs.Float64Var(&c.tol, "tol", 0, "rank tolerance (0: max(mn, r)·2^-52)")
 	fs.Int64Var(&c.maxBytes, "maxbytes", 0, "memory limit in bytes for reading and orthonormalising (0: 4 GiB)")
 	fs.Float64Var(&c.gap, "gap", 1e-6, "requested relative gap on h*: the search stops when the certified interval meets it")
+	fs.StringVar(&c.proof, "proof", "", "write a re-checkable proof of the interval to this file (zip; check it with examples/recheck)")
 	fs.StringVar(&c.field, "field", "auto", "field of the problem: auto (complex data over C, real data over R), real, or complex (real data over C)")
 	fs.Func("dims", "m,n: FILE holds r vectors of length m·n (one r×(m·n) array), each the row-major m×n matrix of a state on C^m⊗C^n or R^m⊗R^n", func(s string) error {
 		var m, n int
@@ -186,7 +190,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
 	opt := segre.Options{Budget: c.budget, Gap: c.gap, Starts: c.starts, Seed: c.seed,
-		Subspace: subspace.Options{RankTol: c.tol, MaxBytes: c.maxBytes}}
+		Subspace: subspace.Options{RankTol: c.tol, MaxBytes: c.maxBytes}, Proof: c.proof != ""}
 	var pr *progressLine
 	if !c.quiet && (!c.asJSON || c.progress) {
 		pr = &progressLine{out: stderr}
@@ -199,6 +203,12 @@ func run(args []string, stdout, stderr io.Writer) int {
 		w, rep, err = segre.CertifyComplex(ctx, in.AsComplex(), opt)
 	} else {
 		w, rep, err = segre.CertifyBasis(ctx, in.Real, opt)
+	}
+	if err == nil && c.proof != "" {
+		if perr := writeProof(c.proof, c.file, rep); perr != nil {
+			fmt.Fprintf(stderr, "certify: proof: %s\n", oneLine(perr))
+			return exitInternal
+		}
 	}
 	pr.end()
 	if err != nil {
@@ -491,4 +501,42 @@ func cvecString(v []complex128) string {
 	}
 	b.WriteString("]")
 	return b.String()
+}
+
+// writeProof writes rep.Proof to path atomically (a temporary file in the
+// same folder, synced, then renamed), with the input file's SHA-256.
+func writeProof(path, input string, rep segre.Report) error {
+	if rep.Proof == nil {
+		if rep.ProofError != nil {
+			return rep.ProofError
+		}
+		return fmt.Errorf("no proof was built")
+	}
+	if input != "" {
+		data, err := os.ReadFile(input)
+		if err != nil {
+			return err
+		}
+		rep.Proof.File.InputSHA256 = proof.SHA256(data)
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(path), ".proof-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(tmp.Name())
+	if err := proof.Write(tmp, rep.Proof); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Sync(); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Close(); err != nil {
+		return err
+	}
+	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
+		return err
+	}
+	return os.Rename(tmp.Name(), path)
 }

@@ -1,0 +1,432 @@
+// Package proof writes and re-checks proof files: everything a reader needs
+// to confirm a certified interval [Lower, Upper] on d* without searching and
+// without trusting the program that found it.
+//
+// A proof file is a zip archive (format "segre-proof", version 1) with:
+//
+//   - proof.json: the claims and the small data (see File);
+//   - stored.npy: the stored basis, s vectors of m×n (float64, C order),
+//     spanning W, or W⊥ when stores_complement is true. The claims are about
+//     the subspace these floats span exactly (or its complement), so a
+//     re-check does not depend on repeating the orthonormalisation bit for
+//     bit on another machine;
+//   - certificate.npy (lower argument "sos-level-1"): the mn×mn matrix K of
+//     the level-one certificate;
+//   - cells.npy (lower argument "branch-and-bound"): one row per leaf cell of
+//     the branch-and-bound cover: face, guess, then the box's lower and upper
+//     corners.
+//
+// Check re-verifies every claim: the stored vectors' orthogonality defect;
+// when the input basis is given, its SHA-256 and a proven distance θ from
+// its span to the stored subspace (subspace.InputDistance), so that the
+// interval widened by θ holds for the input as given; Upper as Verify at the
+// witness; Lower from its argument (the flattening bound recomputed, the
+// certificate verified by sos.Verify, or the cover checked by
+// net.CheckCover). Each recomputed bound must be at least as good as the
+// claim. The writer claims its own recomputation weakened by a relative
+// margin (1e-9): on another machine the same sums may round differently in
+// their last bits (gonum's kernels differ between architectures), and the
+// margin keeps an honest claim confirmable there.
+package proof
+
+import (
+	"archive/zip"
+	"bytes"
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+
+	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/net"
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/sos"
+	"github.com/segre-lab/segre/subspace"
+)
+
+// Errors.
+var (
+	// ErrFormat: the file is not a proof file of a version this package reads.
+	ErrFormat = errors.New("proof: not a readable proof file")
+	// ErrClaim: a claim of the proof does not hold (the message names it).
+	ErrClaim = errors.New("proof: a claim does not hold")
+)
+
+// The arguments behind Lower.
+const (
+	ArgNone       = "none"
+	ArgFlattening = "flattening"
+	ArgSOS1       = "sos-level-1"
+	ArgBranch     = "branch-and-bound"
+)
+
+// Margin is the relative amount by which a writer weakens its claims (see
+// the package doc).
+const Margin = 1e-9
+
+// File is proof.json.
+type File struct {
+	Format           string    `json:"format"`
+	Version          int       `json:"version"`
+	InputSHA256      string    `json:"input_sha256"` // hex; empty when the input was not a file
+	Field            string    `json:"field"`
+	Rows             int       `json:"rows"`
+	Cols             int       `json:"cols"`
+	StoredCount      int       `json:"stored_count"`
+	StoresComplement bool      `json:"stores_complement"`
+	X                []float64 `json:"x"`
+	Y                []float64 `json:"y"`
+	Upper            float64   `json:"upper"`
+	Lower            float64   `json:"lower"`
+	LowerArgument    string    `json:"lower_argument"`
+	CoverD           int       `json:"cover_d,omitempty"`
+	CoverOnX         bool      `json:"cover_on_x,omitempty"`
+}
+
+// Proof is a proof file in memory.
+type Proof struct {
+	File        File
+	Stored      []float64 // StoredCount × Rows × Cols
+	Certificate []float64 // (Rows·Cols)² for ArgSOS1
+	Cover       *net.Cover
+}
+
+// Evidence is what a writer has: the subspace, the witness, and the
+// arguments it can make for Lower (any of them may be nil).
+type Evidence struct {
+	W           *subspace.Subspace
+	InputSHA256 string
+	X, Y        []float64
+	Certificate *sos.Certificate
+	Cover       *net.Cover
+}
+
+// Build makes a proof from the evidence: it recomputes every bound as Check
+// will (so it claims nothing it has not re-proved), keeps the argument with
+// the best Lower, and weakens both claims by Margin. It refuses complex
+// subspaces (not yet supported) with an error.
+func Build(ctx context.Context, ev Evidence) (*Proof, error) {
+	w := ev.W
+	if w.Field() == subspace.Complex {
+		return nil, fmt.Errorf("proof: proofs of complex subspaces are not supported yet")
+	}
+	st := w.Stored()
+	stored := make([]float64, 0, st.Count()*w.Rows()*w.Cols())
+	for t := 0; t < st.Count(); t++ {
+		stored = append(stored, st.Vector(t, nil)...)
+	}
+	p := &Proof{File: File{Format: "segre-proof", Version: 1, InputSHA256: ev.InputSHA256, Field: "real",
+		Rows: w.Rows(), Cols: w.Cols(), StoredCount: st.Count(), StoresComplement: st.Complement(),
+		X: append([]float64(nil), ev.X...), Y: append([]float64(nil), ev.Y...), LowerArgument: ArgNone},
+		Stored: stored}
+	// Recompute on the subspace rebuilt from the stored floats, as a reader will.
+	rw, err := subspace.FromStored(ctx, stored, st.Count(), w.Rows(), w.Cols(), st.Complement(), subspace.Options{MaxBytes: w.MemoryLimit()})
+	if err != nil {
+		return nil, err
+	}
+	up, err := rankone.Verify(rw, p.File.X, p.File.Y)
+	if err != nil {
+		return nil, err
+	}
+	p.File.Upper = math.Min(1, accurate.Up(up*(1+Margin)))
+	best, arg := 0.0, ArgNone
+	if _, lo := rankone.FlatteningBound(ctx, rw); lo > best {
+		best, arg = lo, ArgFlattening
+	}
+	if ev.Certificate != nil {
+		if hb, err := sos.Verify(rw, *ev.Certificate); err == nil {
+			if lo := rankone.DistanceLower(hb); lo > best {
+				best, arg = lo, ArgSOS1
+				p.Certificate = append([]float64(nil), ev.Certificate.K...)
+			}
+		}
+	}
+	if ev.Cover != nil && len(ev.Cover.Cells) > 0 {
+		lam0, _ := rankone.FlatteningBound(ctx, rw)
+		if hu, err := net.CheckCover(ctx, rw, ev.Cover, math.Min(1, lam0)); err == nil {
+			if lo := rankone.DistanceLower(hu); lo > best {
+				best, arg = lo, ArgBranch
+				p.Cover = ev.Cover
+				p.File.CoverD, p.File.CoverOnX = ev.Cover.D, ev.Cover.OnX
+			}
+		}
+	}
+	if arg != ArgSOS1 {
+		p.Certificate = nil
+	}
+	if arg != ArgBranch {
+		p.Cover = nil
+		p.File.CoverD, p.File.CoverOnX = 0, false
+	}
+	p.File.LowerArgument = arg
+	p.File.Lower = math.Max(0, accurate.Down(best*(1-Margin)))
+	if ctx.Err() != nil {
+		return nil, ctx.Err()
+	}
+	return p, nil
+}
+
+// Confirmed is what Check proved.
+type Confirmed struct {
+	// Lower and Upper are the claims, confirmed for the stored subspace.
+	Lower, Upper float64
+	// Recomputed are the bounds the check itself proved (at least as good).
+	RecomputedLower, RecomputedUpper float64
+	// InputChecked reports that an input basis was given and matched; then
+	// InputDistance is the proven θ and InputLower, InputUpper the interval
+	// for the input's span, or InputNote says why it holds for the stored
+	// basis only.
+	InputChecked           bool
+	InputDistance          float64
+	InputLower, InputUpper float64
+	InputNote              string
+	Argument               string
+	OrthogonalityBound     float64
+}
+
+// Check re-verifies p (see the package doc). input, when non-nil, is the
+// basis the proof is about and inputBytes the file's bytes (for its
+// SHA-256; nil to skip the hash when the proof has none). A failed claim is
+// an error wrapping ErrClaim naming it.
+func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []byte) (Confirmed, error) {
+	f := p.File
+	var c Confirmed
+	if f.Format != "segre-proof" || f.Version != 1 || f.Field != "real" {
+		return c, fmt.Errorf("%w: format %q version %d field %q", ErrFormat, f.Format, f.Version, f.Field)
+	}
+	w, err := subspace.FromStored(ctx, p.Stored, f.StoredCount, f.Rows, f.Cols, f.StoresComplement, subspace.Options{})
+	if err != nil {
+		return c, fmt.Errorf("%w: stored basis: %v", ErrClaim, err)
+	}
+	c.OrthogonalityBound = w.OrthogonalityBound()
+	if input != nil {
+		if f.InputSHA256 != "" || inputBytes != nil {
+			sum := sha256.Sum256(inputBytes)
+			if got := hex.EncodeToString(sum[:]); got != f.InputSHA256 {
+				return c, fmt.Errorf("%w: the input's SHA-256 is %s, the proof is about %s", ErrClaim, got, f.InputSHA256)
+			}
+		}
+		c.InputChecked = true
+		th, err := subspace.InputDistance(ctx, *input, w)
+		switch {
+		case err == nil:
+			c.InputDistance = th
+		case errors.Is(err, subspace.ErrDependent) || errors.Is(err, subspace.ErrUnproven) || errors.Is(err, subspace.ErrTooLarge):
+			c.InputNote = err.Error()
+		default:
+			return c, fmt.Errorf("%w: the input basis: %v", ErrClaim, err)
+		}
+	}
+	up, err := rankone.Verify(w, f.X, f.Y)
+	if err != nil {
+		return c, fmt.Errorf("%w: witness: %v", ErrClaim, err)
+	}
+	if !(up <= f.Upper) {
+		return c, fmt.Errorf("%w: Upper: the witness is at distance ≤ %v, not ≤ %v as claimed", ErrClaim, up, f.Upper)
+	}
+	var lo float64
+	switch f.LowerArgument {
+	case ArgNone:
+	case ArgFlattening:
+		_, lo = rankone.FlatteningBound(ctx, w)
+	case ArgSOS1:
+		L := f.Rows * f.Cols
+		if len(p.Certificate) != L*L {
+			return c, fmt.Errorf("%w: certificate has %d entries, want %d", ErrClaim, len(p.Certificate), L*L)
+		}
+		hb, err := sos.Verify(w, sos.Certificate{M: f.Rows, N: f.Cols, K: p.Certificate})
+		if err != nil {
+			return c, fmt.Errorf("%w: certificate: %v", ErrClaim, err)
+		}
+		lo = rankone.DistanceLower(hb)
+	case ArgBranch:
+		if p.Cover == nil {
+			return c, fmt.Errorf("%w: branch-and-bound argument without cells", ErrClaim)
+		}
+		lam0, _ := rankone.FlatteningBound(ctx, w)
+		hu, err := net.CheckCover(ctx, w, p.Cover, math.Min(1, lam0))
+		if err != nil {
+			return c, fmt.Errorf("%w: cover: %v", ErrClaim, err)
+		}
+		lo = rankone.DistanceLower(hu)
+	default:
+		return c, fmt.Errorf("%w: unknown lower argument %q", ErrFormat, f.LowerArgument)
+	}
+	if ctx.Err() != nil {
+		return c, ctx.Err()
+	}
+	if !(lo >= f.Lower) || f.Lower > f.Upper || f.Lower < 0 {
+		return c, fmt.Errorf("%w: Lower: the %s argument proves d* ≥ %v, not ≥ %v as claimed", ErrClaim, f.LowerArgument, lo, f.Lower)
+	}
+	c.Lower, c.Upper, c.RecomputedLower, c.RecomputedUpper, c.Argument = f.Lower, f.Upper, lo, up, f.LowerArgument
+	if c.InputChecked && c.InputNote == "" {
+		c.InputLower = math.Max(0, accurate.Down(f.Lower-c.InputDistance))
+		c.InputUpper = math.Min(1, accurate.Up(f.Upper+c.InputDistance))
+	}
+	return c, nil
+}
+
+// SHA256 returns the hex SHA-256 of data (the input file's bytes).
+func SHA256(data []byte) string {
+	s := sha256.Sum256(data)
+	return hex.EncodeToString(s[:])
+}
+
+// Write writes p as a zip archive to wr.
+func Write(wr io.Writer, p *Proof) error {
+	z := zip.NewWriter(wr)
+	js, err := json.MarshalIndent(p.File, "", "  ")
+	if err != nil {
+		return err
+	}
+	if err := member(z, "proof.json", js); err != nil {
+		return err
+	}
+	var buf bytes.Buffer
+	f := p.File
+	if err := subspace.WriteNPY(&buf, subspace.Basis{Count: f.StoredCount, Rows: f.Rows, Cols: f.Cols, Data: p.Stored}); err != nil && f.StoredCount > 0 {
+		return err
+	}
+	if err := member(z, "stored.npy", buf.Bytes()); err != nil {
+		return err
+	}
+	if p.Certificate != nil {
+		L := f.Rows * f.Cols
+		buf.Reset()
+		if err := subspace.WriteNPY(&buf, subspace.Basis{Count: 1, Rows: L, Cols: L, Data: p.Certificate}); err != nil {
+			return err
+		}
+		if err := member(z, "certificate.npy", buf.Bytes()); err != nil {
+			return err
+		}
+	}
+	if p.Cover != nil {
+		buf.Reset()
+		if err := subspace.WriteNPY(&buf, coverArray(p.Cover)); err != nil {
+			return err
+		}
+		if err := member(z, "cells.npy", buf.Bytes()); err != nil {
+			return err
+		}
+	}
+	return z.Close()
+}
+
+func member(z *zip.Writer, name string, data []byte) error {
+	w, err := z.Create(name)
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(data)
+	return err
+}
+
+// coverArray lays the cells out as one matrix: row c = face, guess, lo…, hi….
+func coverArray(c *net.Cover) subspace.Basis {
+	k := c.D - 1
+	cols := 2 + 2*k
+	d := make([]float64, 0, len(c.Cells)*cols)
+	for _, cl := range c.Cells {
+		d = append(d, float64(cl.Face), cl.Guess)
+		d = append(d, cl.Lo...)
+		d = append(d, cl.Hi...)
+	}
+	return subspace.Basis{Count: 1, Rows: len(c.Cells), Cols: cols, Data: d}
+}
+
+// Read reads a proof archive of size bytes from ra. Malformed or truncated
+// archives and members give an error wrapping ErrFormat.
+func Read(ra io.ReaderAt, size int64) (*Proof, error) {
+	z, err := zip.NewReader(ra, size)
+	if err != nil {
+		return nil, fmt.Errorf("%w: %v", ErrFormat, err)
+	}
+	get := func(name string) ([]byte, bool, error) {
+		for _, f := range z.File {
+			if f.Name == name {
+				if f.UncompressedSize64 > 1<<32 {
+					return nil, true, fmt.Errorf("%w: member %s is too large", ErrFormat, name)
+				}
+				rc, err := f.Open()
+				if err != nil {
+					return nil, true, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)
+				}
+				defer rc.Close()
+				b, err := io.ReadAll(rc)
+				if err != nil {
+					return nil, true, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)
+				}
+				return b, true, nil
+			}
+		}
+		return nil, false, nil
+	}
+	js, ok, err := get("proof.json")
+	if err != nil || !ok {
+		return nil, fmt.Errorf("%w: no proof.json (%v)", ErrFormat, err)
+	}
+	p := &Proof{}
+	dec := json.NewDecoder(bytes.NewReader(js))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&p.File); err != nil {
+		return nil, fmt.Errorf("%w: proof.json: %v", ErrFormat, err)
+	}
+	f := p.File
+	if f.Rows <= 0 || f.Cols <= 0 || f.StoredCount < 0 {
+		return nil, fmt.Errorf("%w: shape %d×%d with %d stored vectors", ErrFormat, f.Rows, f.Cols, f.StoredCount)
+	}
+	arr := func(name string, rows, cols int) ([]float64, error) {
+		b, ok, err := get(name)
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			return nil, fmt.Errorf("%w: missing %s", ErrFormat, name)
+		}
+		a, err := subspace.ReadNPY(bytes.NewReader(b), 0)
+		if err != nil {
+			return nil, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)
+		}
+		if rows >= 0 && a.Count*a.Rows != rows || a.Cols != cols {
+			return nil, fmt.Errorf("%w: %s has shape (%d, %d, %d)", ErrFormat, name, a.Count, a.Rows, a.Cols)
+		}
+		return a.Data, nil
+	}
+	if f.StoredCount > 0 {
+		if p.Stored, err = arr("stored.npy", f.StoredCount*f.Rows, f.Cols); err != nil {
+			return nil, err
+		}
+	}
+	switch f.LowerArgument {
+	case ArgSOS1:
+		L := f.Rows * f.Cols
+		if p.Certificate, err = arr("certificate.npy", L, L); err != nil {
+			return nil, err
+		}
+	case ArgBranch:
+		if f.CoverD < 1 {
+			return nil, fmt.Errorf("%w: cover dimension %d", ErrFormat, f.CoverD)
+		}
+		k := f.CoverD - 1
+		cells, err := arr("cells.npy", -1, 2+2*k)
+		if err != nil {
+			return nil, err
+		}
+		cv := &net.Cover{D: f.CoverD, OnX: f.CoverOnX}
+		for r := 0; r+2+2*k <= len(cells); r += 2 + 2*k {
+			row := cells[r : r+2+2*k]
+			face := int(row[0])
+			if float64(face) != row[0] {
+				return nil, fmt.Errorf("%w: cells.npy: face %v is not an integer", ErrFormat, row[0])
+			}
+			cv.Cells = append(cv.Cells, net.CoverCell{Face: face, Guess: row[1],
+				Lo: append([]float64(nil), row[2:2+k]...), Hi: append([]float64(nil), row[2+k:]...)})
+		}
+		p.Cover = cv
+	}
+	return p, nil
+}
