@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -455,5 +456,36 @@ func TestComplexCommand(t *testing.T) {
 		if code, out, errs := runCmd(args...); code != 2 || out != "" || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
 			t.Errorf("%v: exit %d, stdout %q, stderr %q; want 2 and one line", args, code, out, errs)
 		}
+	}
+}
+
+// -proof writes a readable proof file atomically (no temporary file left),
+// and a complex input, for which proofs are not supported yet, is said so
+// with exit 1 and no proof written.
+func TestProofFlag(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "b.txt")
+	os.WriteFile(p, []byte("2 2 3\n1 0 0 0 2 0\n0 1 0 3 0 1\n"), 0o644)
+	pf := filepath.Join(dir, "b.proof")
+	if code, _, errs := runCmd("-quiet", "-proof", pf, p); code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	f, err := os.Open(pf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, _ := f.Stat()
+	if _, err := proof.Read(f, st.Size()); err != nil {
+		t.Errorf("proof not readable: %v", err)
+	}
+	f.Close()
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 2 {
+		t.Errorf("files left: %v", entries)
+	}
+	c := filepath.Join(dir, "c.txt")
+	os.WriteFile(c, []byte("1 2 2 complex\n1 1i\n0 1\n"), 0o644)
+	if code, _, errs := runCmd("-quiet", "-proof", filepath.Join(dir, "c.proof"), c); code != 1 || !strings.Contains(errs, "complex") {
+		t.Errorf("complex proof: exit %d, %s", code, errs)
 	}
 }
