@@ -360,9 +360,23 @@ func (m *merger) bounds() (lo, up float64) {
 // smaller of the translated real Upper and VerifyComplex at the witness
 // (which has no cancellation for tiny distances), and the complex witness.
 func complexReport(w *subspace.Subspace, rep *Report) {
-	up := rankone.ComplexUpper(rep.Upper)
-	if v, err := rankone.VerifyComplex(w, rep.X, rep.Y); err == nil && v < up {
-		up = v
+	cup := func(x, y []float64, realUpper float64) float64 {
+		u := rankone.ComplexUpper(realUpper)
+		if v, err := rankone.VerifyComplex(w, x, y); err == nil && v < u {
+			u = v
+		}
+		return u
+	}
+	up := cup(rep.X, rep.Y, rep.Upper)
+	// A member's witness may prove a smaller complex Upper through its
+	// translated real Upper than the merged one does (the merge ranks by
+	// VerifyComplex): take the best, with its own witness.
+	for _, mb := range rep.Members {
+		if mb.Err == nil && mb.Result.X != nil {
+			if u := cup(mb.Result.X, mb.Result.Y, mb.Result.Upper); u < up {
+				up, rep.X, rep.Y, rep.Upper, rep.FoundBy = u, mb.Result.X, mb.Result.Y, mb.Result.Upper, mb.Name
+			}
+		}
 	}
 	rep.Lower, rep.Upper = rankone.ComplexLower(rep.Lower), up
 	if rep.Lower > rep.Upper { // cannot happen when both are proven; keep the report proper

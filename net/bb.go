@@ -77,8 +77,9 @@ var _ rankone.Searcher = (*BranchBound)(nil)
 func (b *BranchBound) Name() string { return "branch-and-bound" }
 
 // cellBound returns the bound on max h over a cell (see BranchBound):
-// ψ = (√f̄ + r√(Λ − f̄))² when f̄ ≤ Λ/(1+r²), else Λ(1 + r²), and never
-// more than Λ.
+// ψ = (√f̄ + r√(Λ − f̄))² when f̄ ≤ Λ/(1+r²), else Λ(1 + r²) (which can
+// exceed Λ: such a key proves nothing new, and the global bound keeps the
+// smaller Λ).
 func cellBound(fbar, r, lam float64) float64 {
 	if fbar > lam {
 		fbar = lam

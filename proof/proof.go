@@ -54,6 +54,9 @@ var (
 	ErrFormat = errors.New("proof: not a readable proof file")
 	// ErrClaim: a claim of the proof does not hold (the message names it).
 	ErrClaim = errors.New("proof: a claim does not hold")
+	// ErrInput: the input basis given to Check cannot be compared with the
+	// proof (another shape, unreadable data).
+	ErrInput = errors.New("proof: the input basis does not fit the proof")
 )
 
 // The arguments behind Lower.
@@ -181,6 +184,7 @@ type Confirmed struct {
 	// for the input's span, or InputNote says why it holds for the stored
 	// basis only.
 	InputChecked           bool
+	HashChecked            bool // the input\'s SHA-256 matched the proof\'s
 	InputDistance          float64
 	InputLower, InputUpper float64
 	InputNote              string
@@ -204,11 +208,15 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 	}
 	c.OrthogonalityBound = w.OrthogonalityBound()
 	if input != nil {
-		if f.InputSHA256 != "" || inputBytes != nil {
+		if f.InputSHA256 != "" && inputBytes != nil {
 			sum := sha256.Sum256(inputBytes)
 			if got := hex.EncodeToString(sum[:]); got != f.InputSHA256 {
 				return c, fmt.Errorf("%w: the input's SHA-256 is %s, the proof is about %s", ErrClaim, got, f.InputSHA256)
 			}
+			c.HashChecked = true
+		}
+		if input.Rows != f.Rows || input.Cols != f.Cols {
+			return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d", ErrInput, input.Rows, input.Cols, f.Rows, f.Cols)
 		}
 		c.InputChecked = true
 		th, err := subspace.InputDistance(ctx, *input, w)
@@ -218,7 +226,7 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 		case errors.Is(err, subspace.ErrDependent) || errors.Is(err, subspace.ErrUnproven) || errors.Is(err, subspace.ErrTooLarge):
 			c.InputNote = err.Error()
 		default:
-			return c, fmt.Errorf("%w: the input basis: %v", ErrClaim, err)
+			return c, fmt.Errorf("%w: %v", ErrInput, err)
 		}
 	}
 	up, err := rankone.Verify(w, f.X, f.Y)

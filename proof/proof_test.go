@@ -146,3 +146,26 @@ func TestTampering(t *testing.T) {
 		t.Errorf("truncated archive: %v", err)
 	}
 }
+
+// A proof without a recorded SHA-256 (built from memory, not a file) is
+// checked against a given basis by the proven input distance alone, and
+// says the hash was not checked; a basis of another shape is an input
+// error, not a refused claim.
+func TestNoHashAndOtherShape(t *testing.T) {
+	ctx := context.Background()
+	in := suite.OneMatrix(3, 5, 1)
+	w := suite.MustNew(t, in)
+	x, y := witness(t, w)
+	p, err := Build(ctx, Evidence{W: w, X: x, Y: y})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := Check(ctx, p, &in.Basis, inputBytes(t, in))
+	if err != nil || c.HashChecked || !c.InputChecked || c.InputDistance > 1e-12 {
+		t.Errorf("no hash: %+v, %v", c, err)
+	}
+	other := suite.OneMatrix(5, 3, 1)
+	if _, err := Check(ctx, p, &other.Basis, nil); !errors.Is(err, ErrInput) || errors.Is(err, ErrClaim) {
+		t.Errorf("other shape: %v", err)
+	}
+}

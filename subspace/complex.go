@@ -35,8 +35,9 @@ import (
 // columns: of y). So a complex subspace of dimension k is the real
 // subspace W'' of 2m×2n matrices, of dimension 2k, with h = 2h'' and
 // d² = 2d''² − 1 (d''² = 1 − h''). Every real strategy, bound and net
-// runs on W'' unchanged; NewComplex returns W'' and keeps W_R to certify
-// complex distances without the cancellation of 1 − h (ComplexResidualBound).
+// runs on W'' unchanged; NewComplex returns W'' and keeps the rows of W_R
+// that W'' is made of, to certify complex distances without the
+// cancellation of 1 − h (ComplexResidualBound) about the same subspace.
 // h'' ≤ 1/2 always, and the optima are attained along orbits of the phase
 // symmetry (x, y) → (e^{iθ}x, e^{−iθ}y), which global searches must reduce
 // (net.BranchBound fixes the phase of one coordinate).
@@ -78,8 +79,7 @@ func ComplexFromReal(b Basis) ComplexBasis {
 type complexPart struct {
 	m, n int       // the complex shape
 	s    int       // stored rows of W_R
-	q    []float64 // s×(2mn): an orthonormal basis of W_R, as computed
-	wr   *Subspace // W_R itself (its rows as 2×(mn) "matrices"), for InputDistance
+	q    []float64 // s×(2mn): rows (a′, b′) spanning W_R exactly (see NewComplex)
 }
 
 // Field reports whether w is a subspace of real or of complex matrices.
@@ -155,6 +155,18 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 			return nil, fmt.Errorf("%w: matrix %d, entry (%d, %d) is %v", ErrNotFinite, t, rem/cb.Cols, rem%cb.Cols, z)
 		}
 	}
+	limit := opt.MaxBytes
+	if limit == 0 {
+		limit = DefaultMaxBytes
+	}
+	// The complex input, its realified copy and New's working storage, W''
+	// (up to 2r rows of 4mn) and its Gram matrix.
+	rr := int64(2 * cb.Count)
+	k2 := min(rr, int64(2*L))
+	need := 16*int64(total) + 8*rr*int64(2*L) + workBytes(int(rr), 2*L) + 8*k2*int64(L4) + 8*k2*k2
+	if opt.MaxBytes >= 0 && (need > limit || need < 0) {
+		return nil, fmt.Errorf("%w: %d complex matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, cb.Count, cb.Rows, cb.Cols, need, limit)
+	}
 	ropt := opt
 	ropt.keepW = true
 	br := realify(cb)
@@ -163,7 +175,7 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 		return nil, err
 	}
 	if wr.eta >= 0.5 {
-		return nil, fmt.Errorf("%w: the realified basis lost its orthogonality (η = %g)", ErrNotFinite, wr.eta)
+		return nil, fmt.Errorf("%w: the realified basis lost its orthogonality (η = %g)", ErrUnproven, wr.eta)
 	}
 	m, n, s := cb.Rows, cb.Cols, wr.s
 	// W'' = Nᵀ W_R: row t of q is [[a, b], [b, −a]]/√2 for (a, b) = stored
@@ -192,7 +204,21 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 	if stop() {
 		return nil, fmt.Errorf("subspace: %w", ctx.Err())
 	}
-	w.cx = &complexPart{m: m, n: n, s: s, q: wr.q, wr: wr}
+	// The stored W'' is exactly Nᵀ W̃_R for W̃_R = span{(a′_t, b′_t)}, the
+	// rounded scaled rows (N of row t is √2·(a′_t, b′_t) exactly). Every
+	// bound of W'' is about W̃_R, so the complex residual and the input
+	// distance use the same rows: they are copied from W'' itself.
+	qr := make([]float64, s*2*L)
+	for t := 0; t < s; t++ {
+		out, src := qr[t*2*L:(t+1)*2*L], q[t*L4:(t+1)*L4]
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				out[i*n+j] = src[i*2*n+j]     // a′
+				out[L+i*n+j] = src[i*2*n+n+j] // b′
+			}
+		}
+	}
+	w.cx = &complexPart{m: m, n: n, s: s, q: qr}
 	return w, nil
 }
 
@@ -208,7 +234,7 @@ func (w *Subspace) ComplexDim() int {
 // ComplexResidualBound returns a proven upper bound on the complex
 // distance dist_F(x yᵀ, W) for x = X[:m] + i X[m:], y = Y[:n] + i Y[n:]
 // exactly as given (not normalised), W the complex subspace spanned by the
-// stored basis of W_R. It returns +Inf when it cannot prove anything
+// rows (a′, b′) spanning W_R exactly. It returns +Inf when it cannot prove anything
 // finite. It panics if w is not complex or the lengths are not 2m and 2n.
 //
 // Derivation: as ResidualBound with W stored. The real coordinates of x⊗y
@@ -248,15 +274,17 @@ func (w *Subspace) ComplexResidualBound(x, y []float64) float64 {
 			v[L+i*n+j] = float64(xr[i]*yi[j]) + float64(xi[i]*yr[j])
 		}
 	}
-	// Coefficients c = fl(Q v), refined once (any c gives a valid bound).
+	// Coefficients c ≈ 2·Q v (the rows are orthogonal with squared norms
+	// about 1/2, so the projector is about 2QᵀQ), refined once; any c gives
+	// a valid bound, a good one a tight bound.
 	qm := blas64.General{Rows: cx.s, Cols: 2 * L, Stride: 2 * L, Data: cx.q}
 	c := make([]float64, cx.s)
 	if cx.s > 0 {
-		blas64.Gemv(blas.NoTrans, 1, qm, blas64.Vector{N: 2 * L, Data: v, Inc: 1}, 0, blas64.Vector{N: cx.s, Data: c, Inc: 1})
+		blas64.Gemv(blas.NoTrans, 2, qm, blas64.Vector{N: 2 * L, Data: v, Inc: 1}, 0, blas64.Vector{N: cx.s, Data: c, Inc: 1})
 		r := append([]float64(nil), v...)
 		blas64.Gemv(blas.Trans, -1, qm, blas64.Vector{N: cx.s, Data: c, Inc: 1}, 1, blas64.Vector{N: 2 * L, Data: r, Inc: 1})
 		dc := make([]float64, cx.s)
-		blas64.Gemv(blas.NoTrans, 1, qm, blas64.Vector{N: 2 * L, Data: r, Inc: 1}, 0, blas64.Vector{N: cx.s, Data: dc, Inc: 1})
+		blas64.Gemv(blas.NoTrans, 2, qm, blas64.Vector{N: 2 * L, Data: r, Inc: 1}, 0, blas64.Vector{N: cx.s, Data: dc, Inc: 1})
 		for t := range c {
 			c[t] += dc[t]
 		}
@@ -306,8 +334,12 @@ func ComplexWitness(x, y []float64) (cx, cy []complex128) {
 // ComplexInputDistance is InputDistance for a complex subspace built by
 // NewComplex from cb: a proven θ ≥ ‖P_V − P_W‖₂ for V the complex span of
 // the matrices of cb as given (their real and imaginary parts exact data)
-// and W the stored subspace, through the realified spans in R^{2mn} (the
-// complex and realified projectors coincide). It panics if w is real.
+// and W the stored subspace. It is proven on W” itself: the real 2m×2n
+// matrices [[A, B], [B, −A]] and [[−B, A], [A, B]] of each input A + iB are
+// exact (no rounding) and span NᵀV_R exactly, the stored W” is NᵀW̃_R
+// exactly, and ‖NᵀXN‖₂ = ‖X‖₂ for the isometry Nᵀ, so the distance between
+// the realified spans — which is the complex one, as their projectors
+// coincide — equals that between the W” spans. It panics if w is real.
 func ComplexInputDistance(ctx context.Context, cb ComplexBasis, w *Subspace) (float64, error) {
 	if w.cx == nil {
 		panic("subspace: ComplexInputDistance of a real subspace")
@@ -315,5 +347,32 @@ func ComplexInputDistance(ctx context.Context, cb ComplexBasis, w *Subspace) (fl
 	if cb.Rows != w.cx.m || cb.Cols != w.cx.n {
 		return 0, fmt.Errorf("%w: basis of %d×%d matrices for a subspace of %d×%d", ErrShape, cb.Rows, cb.Cols, w.cx.m, w.cx.n)
 	}
-	return InputDistance(ctx, realify(cb), w.cx.wr)
+	return InputDistance(ctx, RealMatrices(cb), w)
+}
+
+// RealMatrices returns the exact real 2m×2n matrices [[A, B], [B, −A]]
+// and [[−B, A], [A, B]] (those of A + iB and of i(A + iB)) of every input:
+// they span NᵀV_R exactly, √2 times the real subspace W” that NewComplex
+// stores for the span V of cb (see the notes on complex subspaces).
+func RealMatrices(cb ComplexBasis) Basis {
+	m, n, L := cb.Rows, cb.Cols, cb.Rows*cb.Cols
+	d := make([]float64, 0, 2*cb.Count*4*L)
+	for t := 0; t < cb.Count; t++ {
+		for rot := 0; rot < 2; rot++ {
+			mt := make([]float64, 4*L)
+			for i := 0; i < m; i++ {
+				for j := 0; j < n; j++ {
+					z := cb.Data[t*L+i*n+j]
+					a, b := real(z), imag(z) // A + iB
+					if rot == 1 {
+						a, b = -imag(z), real(z) // i(A + iB) = −B + iA, exactly
+					}
+					mt[i*2*n+j], mt[i*2*n+n+j] = a, b
+					mt[(m+i)*2*n+j], mt[(m+i)*2*n+n+j] = b, -a
+				}
+			}
+			d = append(d, mt...)
+		}
+	}
+	return Basis{Count: 2 * cb.Count, Rows: 2 * m, Cols: 2 * n, Data: d}
 }

@@ -414,7 +414,7 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 		fmt.Fprintf(out, " (%d zero)", zeros)
 	}
 	fmt.Fprintf(out, ", numerical dimension %d (rank tolerance %.2g), stored as %s\n", w.ComplexDim(), w.RankTol(), stored)
-	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %.2g)\n", rec, orth, w.OrthogonalityBound())
+	fmt.Fprintf(out, "basis      reconstruction error %.2g, orthogonality %.2g (proven bound %s)\n", rec, orth, up(w.OrthogonalityBound(), 2))
 	fmt.Fprintf(out, "distance   d* in [%s, %s]   (certified, for the stored basis)\n", down(rep.Lower, 10), up(rep.Upper, 10))
 	if in := rep.Input; in != nil && in.Proven {
 		fmt.Fprintf(out, "input span d* in [%s, %s]   (certified for the span of the matrices as given: the stored basis is within %s of it)\n",

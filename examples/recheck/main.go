@@ -82,17 +82,30 @@ func run(args []string, stdout, stderr io.Writer) int {
 	var input *subspace.Basis
 	var inputBytes []byte
 	if len(rest) == 1 {
-		in, err := subspace.ReadInput(rest[0], 0)
+		// Read the bytes once: hash them and parse the same bytes.
+		if inputBytes, err = os.ReadFile(rest[0]); err != nil {
+			return bad("%v", err)
+		}
+		tmp, err := os.CreateTemp("", "recheck-*")
 		if err != nil {
-			return bad("%s", oneLine(err))
+			return bad("%v", err)
+		}
+		defer os.Remove(tmp.Name())
+		tmp.Write(inputBytes)
+		tmp.Close()
+		in, err := subspace.ReadInput(tmp.Name(), 0)
+		if err != nil {
+			return bad("%s: %s", rest[0], strings.TrimPrefix(oneLine(err), tmp.Name()+": "))
 		}
 		if in.Field != subspace.Real {
 			return bad("%s: complex data: proofs of complex subspaces are not supported yet", rest[0])
 		}
-		if inputBytes, err = os.ReadFile(rest[0]); err != nil {
-			return bad("%v", err)
+		b := in.Real
+		// A file of state vectors (certify -dims m,n): one r×(m·n) array.
+		if b.Count == 1 && b.Cols == p.File.Rows*p.File.Cols && b.Cols != p.File.Cols {
+			b.Count, b.Rows, b.Cols = b.Rows, p.File.Rows, p.File.Cols
 		}
-		input = &in.Real
+		input = &b
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
@@ -101,6 +114,9 @@ func run(args []string, stdout, stderr io.Writer) int {
 		if ctx.Err() != nil {
 			fmt.Fprintln(stderr, "recheck: interrupted")
 			return 130
+		}
+		if errors.Is(err, proof.ErrInput) {
+			return bad("%s: %s", rest[0], oneLine(err))
 		}
 		if errors.Is(err, proof.ErrClaim) {
 			fmt.Fprintf(stdout, "REFUSED  %s\n", oneLine(err))
@@ -119,12 +135,19 @@ func run(args []string, stdout, stderr io.Writer) int {
 	case !c.InputChecked:
 		fmt.Fprintln(stdout, "  input    not given: the interval holds for the stored basis")
 	case c.InputNote != "":
-		fmt.Fprintf(stdout, "  input    SHA-256 matches; %s: the interval holds for the stored basis only\n", c.InputNote)
+		fmt.Fprintf(stdout, "  input    %s; %s: the interval holds for the stored basis only\n", hashWord(c.HashChecked), c.InputNote)
 	default:
-		fmt.Fprintf(stdout, "  input    SHA-256 matches; its span is within %s of the stored subspace: d* in [%s, %s] for the input as given\n",
-			rankone.FormatUpper(c.InputDistance, 3), rankone.FormatLower(c.InputLower, 10), rankone.FormatUpper(c.InputUpper, 10))
+		fmt.Fprintf(stdout, "  input    %s; its span is within %s of the stored subspace: d* in [%s, %s] for the input as given\n",
+			hashWord(c.HashChecked), rankone.FormatUpper(c.InputDistance, 3), rankone.FormatLower(c.InputLower, 10), rankone.FormatUpper(c.InputUpper, 10))
 	}
 	return 0
 }
 
 func oneLine(err error) string { return strings.ReplaceAll(err.Error(), "\n", " ") }
+
+func hashWord(checked bool) string {
+	if checked {
+		return "SHA-256 matches"
+	}
+	return "the proof records no SHA-256 (not checked)"
+}

@@ -32,27 +32,8 @@ type ComplexInstance struct {
 // subspace.NewComplex), whose optimum is d”* = √((1 + d*²)/2) (derived in
 // package subspace: d² = 2d”² − 1). Real strategies and tests run on it.
 func (in ComplexInstance) Realified() Instance {
-	b := in.Basis
-	m, n, L := b.Rows, b.Cols, b.Rows*b.Cols
-	d := make([]float64, 0, 2*b.Count*4*L)
-	for t := 0; t < b.Count; t++ {
-		for _, rot := range []complex128{1, 1i} { // C and iC
-			mat := make([]float64, 4*L)
-			for i := 0; i < m; i++ {
-				for j := 0; j < n; j++ {
-					z := rot * b.Data[t*L+i*n+j]
-					a, bb := real(z), imag(z)
-					mat[i*2*n+j] = a
-					mat[i*2*n+n+j] = bb
-					mat[(m+i)*2*n+j] = bb
-					mat[(m+i)*2*n+n+j] = -a
-				}
-			}
-			d = append(d, mat...)
-		}
-	}
 	out := Instance{Family: "realified-" + in.Family, Name: in.Name + "/realified",
-		Basis: subspace.Basis{Count: 2 * b.Count, Rows: 2 * m, Cols: 2 * n, Data: d}, Optimum: math.NaN()}
+		Basis: subspace.RealMatrices(in.Basis), Optimum: math.NaN()}
 	if !math.IsNaN(in.Optimum) {
 		out.Optimum = math.Sqrt((1 + in.Optimum*in.Optimum) / 2)
 	}
