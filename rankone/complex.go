@@ -24,27 +24,7 @@ func VerifyComplex(w *subspace.Subspace, x, y []float64) (float64, error) {
 	if w.Field() != subspace.Complex {
 		return 1, fmt.Errorf("%w: VerifyComplex of a real subspace", ErrLength)
 	}
-	if len(x) != w.Rows() || len(y) != w.Cols() {
-		return 1, fmt.Errorf("%w: x has %d entries, y %d; want %d and %d", ErrLength, len(x), len(y), w.Rows(), w.Cols())
-	}
-	xs, err := exactScale(x, "x")
-	if err != nil {
-		return 1, err
-	}
-	ys, err := exactScale(y, "y")
-	if err != nil {
-		return 1, err
-	}
-	num := w.ComplexResidualBound(xs, ys)
-	den := accurate.Down(accurate.SqrtDown(accurate.SumSqLower(xs)) * accurate.SqrtDown(accurate.SumSqLower(ys)))
-	if !(den > 0) {
-		return 1, nil
-	}
-	u := accurate.Up(num / den)
-	if !(u < 1) {
-		return 1, nil
-	}
-	return u, nil
+	return verifyWith(w, x, y, w.ComplexResidualBound)
 }
 
 // rankKey is what witnesses are ranked by: their certified Upper, or for a

@@ -141,6 +141,13 @@ var (
 // denominator a proven lower bound on ‖x‖‖y‖ (accurate.SumSqLower, rounded
 // square roots); the quotient is rounded upwards.
 func Verify(w *subspace.Subspace, x, y []float64) (float64, error) {
+	return verifyWith(w, x, y, w.ResidualBound)
+}
+
+// verifyWith is Verify with the residual bound given (the real one, or the
+// complex one of VerifyComplex): scale x, y by powers of two (exactly),
+// bound the residual, divide by a proven lower bound on ‖x‖‖y‖, round up.
+func verifyWith(w *subspace.Subspace, x, y []float64, residual func(x, y []float64) float64) (float64, error) {
 	if len(x) != w.Rows() || len(y) != w.Cols() {
 		return 1, fmt.Errorf("%w: x has %d entries, y %d; want %d and %d", ErrLength, len(x), len(y), w.Rows(), w.Cols())
 	}
@@ -152,7 +159,7 @@ func Verify(w *subspace.Subspace, x, y []float64) (float64, error) {
 	if err != nil {
 		return 1, err
 	}
-	num := w.ResidualBound(xs, ys)
+	num := residual(xs, ys)
 	den := accurate.Down(accurate.SqrtDown(accurate.SumSqLower(xs)) * accurate.SqrtDown(accurate.SumSqLower(ys)))
 	if !(den > 0) {
 		return 1, nil

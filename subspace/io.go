@@ -39,14 +39,11 @@ var npyMagic = []byte("\x93NUMPY")
 // NaN or infinite (ErrNotFinite, naming the matrix and entry) and a file in
 // which every matrix is zero (ErrZero), so that these errors name the file.
 func ReadFile(path string, maxBytes int64) (Basis, error) {
-	in, err := ReadInput(path, maxBytes)
-	if err != nil {
-		return Basis{}, err
+	b, err := realOnly(ReadInput(path, maxBytes))
+	if err != nil && !strings.HasPrefix(err.Error(), path+": ") {
+		return Basis{}, fmt.Errorf("%s: %w", path, err)
 	}
-	if in.Field == Complex {
-		return Basis{}, fmt.Errorf("%s: %w: complex data (read it with ReadInput, or certify -field complex)", path, ErrFormat)
-	}
-	return in.Real, nil
+	return b, err
 }
 
 // Input is a basis read from a file: real (Real set) or complex (Complex
@@ -206,12 +203,17 @@ func ReadNPY(rd io.Reader, maxBytes int64) (Basis, error) { return readNPY(rd, m
 // readNPY is ReadNPY; size ≥ 0 is the whole stream's length when known, and
 // a stream too short for its declared shape is refused before allocating.
 func readNPY(rd io.Reader, maxBytes, size int64) (Basis, error) {
-	in, err := readNPYInput(rd, maxBytes, size)
+	return realOnly(readNPYInput(rd, maxBytes, size))
+}
+
+// realOnly returns the real basis of in, or refuses complex data (the
+// real-only readers' answer to a complex file).
+func realOnly(in Input, err error) (Basis, error) {
 	if err != nil {
 		return Basis{}, err
 	}
 	if in.Field == Complex {
-		return Basis{}, fmt.Errorf("%w: npy: complex data (read it with ReadInput, or certify -field complex)", ErrFormat)
+		return Basis{}, fmt.Errorf("%w: complex data (read it with ReadInput, or certify -field complex)", ErrFormat)
 	}
 	return in.Real, nil
 }
@@ -535,14 +537,7 @@ func ReadText(rd io.Reader, maxBytes int64) (Basis, error) { return readText(rd,
 // number takes at least two bytes (a digit and a separator) except the last,
 // so a declared count above (size+1)/2 is refused before allocating.
 func readText(rd io.Reader, maxBytes, size int64) (Basis, error) {
-	in, err := readTextInput(rd, maxBytes, size)
-	if err != nil {
-		return Basis{}, err
-	}
-	if in.Field == Complex {
-		return Basis{}, fmt.Errorf("%w: text: complex data (read it with ReadInput)", ErrFormat)
-	}
-	return in.Real, nil
+	return realOnly(readTextInput(rd, maxBytes, size))
 }
 
 // readTextInput reads the text format, real or complex (header "r m n

@@ -27,6 +27,7 @@ import (
 
 	"github.com/segre-lab/segre"
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/cli"
 	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/subspace"
 )
@@ -100,24 +101,15 @@ func parse(args []string, stderr io.Writer) (config, int, bool) {
 		fmt.Fprintf(stderr, "certify: "+format+"\n", a...)
 		return c, exitBadInput, false
 	}
-	// Flags may follow FILE: parse, take one positional argument, parse
-	// what follows it again.
-	var files []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				fmt.Fprintln(stderr, usage)
-				fs.SetOutput(stderr)
-				fs.PrintDefaults()
-				return c, 0, false
-			}
-			return bad("%s%s", err, durationHint(err, args))
+	files, err := cli.Parse(fs, args) // flags may follow FILE
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(stderr, usage)
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
+			return c, 0, false
 		}
-		if fs.NArg() == 0 {
-			break
-		}
-		files = append(files, fs.Arg(0))
-		args = fs.Args()[1:]
+		return bad("%s%s", err, durationHint(err, args))
 	}
 	switch {
 	case c.budget <= 0:

@@ -19,6 +19,7 @@ import (
 	"os/signal"
 	"strings"
 
+	"github.com/segre-lab/segre/internal/cli"
 	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/subspace"
@@ -43,22 +44,15 @@ func run(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "recheck: "+format+"\n", a...)
 		return 2
 	}
-	var rest []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				fmt.Fprintln(stderr, usage)
-				fs.SetOutput(stderr)
-				fs.PrintDefaults()
-				return 0
-			}
-			return bad("%v", err)
+	rest, err := cli.Parse(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(stderr, usage)
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
+			return 0
 		}
-		if fs.NArg() == 0 {
-			break
-		}
-		rest = append(rest, fs.Arg(0))
-		args = fs.Args()[1:]
+		return bad("%v", err)
 	}
 	if *path == "" {
 		return bad("-proof FILE is required")

@@ -45,6 +45,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/cli"
 	"github.com/segre-lab/segre/rankone/cpd"
 	"github.com/segre-lab/segre/subspace"
 )
@@ -107,27 +108,15 @@ func parse(args []string, stderr io.Writer) (c config, code int, ok bool) {
 		fmt.Fprintf(stderr, "unmix: "+format+"\n", a...)
 		return c, exitBadInput, false
 	}
-	var files []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				fmt.Fprintln(stderr, usage)
-				fs.SetOutput(stderr)
-				fs.PrintDefaults()
-				return c, 0, false
-			}
-			return bad("%v", err)
+	files, err := cli.Parse(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(stderr, usage)
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
+			return c, 0, false
 		}
-		rest := fs.Args()
-		if len(rest) == 0 {
-			break
-		}
-		if used := len(args) - len(rest); used > 0 && args[used-1] == "--" {
-			files = append(files, rest...)
-			break
-		}
-		files = append(files, rest[0])
-		args = rest[1:]
+		return bad("%v", err)
 	}
 	c.set = map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { c.set[f.Name] = true })
