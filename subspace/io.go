@@ -468,19 +468,8 @@ func WriteNPY(wr io.Writer, b Basis) error {
 	if err := checkBasis(b); err != nil {
 		return err
 	}
-	h := fmt.Sprintf("{'descr': '<f8', 'fortran_order': False, 'shape': (%d, %d, %d), }", b.Count, b.Rows, b.Cols)
-	pad := 64 - (10+len(h)+1)%64
-	if pad == 64 {
-		pad = 0
-	}
-	h += strings.Repeat(" ", pad) + "\n"
 	bw := bufio.NewWriter(wr)
-	bw.Write(npyMagic)
-	bw.Write([]byte{1, 0})
-	var l [2]byte
-	binary.LittleEndian.PutUint16(l[:], uint16(len(h)))
-	bw.Write(l[:])
-	bw.WriteString(h)
+	writeNPYHeader(bw, "<f8", b.Count, b.Rows, b.Cols)
 	var e [8]byte
 	for _, v := range b.Data {
 		binary.LittleEndian.PutUint64(e[:], math.Float64bits(v))
@@ -778,19 +767,8 @@ func WriteComplexNPY(wr io.Writer, b ComplexBasis) error {
 	if b.Count <= 0 || b.Rows <= 0 || b.Cols <= 0 || len(b.Data) != b.Count*b.Rows*b.Cols {
 		return fmt.Errorf("%w: basis of %d matrices of %d×%d with %d entries", ErrShape, b.Count, b.Rows, b.Cols, len(b.Data))
 	}
-	h := fmt.Sprintf("{'descr': '<c16', 'fortran_order': False, 'shape': (%d, %d, %d), }", b.Count, b.Rows, b.Cols)
-	pad := 64 - (10+len(h)+1)%64
-	if pad == 64 {
-		pad = 0
-	}
-	h += strings.Repeat(" ", pad) + "\n"
 	bw := bufio.NewWriter(wr)
-	bw.Write(npyMagic)
-	bw.Write([]byte{1, 0})
-	var l [2]byte
-	binary.LittleEndian.PutUint16(l[:], uint16(len(h)))
-	bw.Write(l[:])
-	bw.WriteString(h)
+	writeNPYHeader(bw, "<c16", b.Count, b.Rows, b.Cols)
 	var e [8]byte
 	for _, z := range b.Data {
 		binary.LittleEndian.PutUint64(e[:], math.Float64bits(real(z)))
@@ -799,4 +777,21 @@ func WriteComplexNPY(wr io.Writer, b ComplexBasis) error {
 		bw.Write(e[:])
 	}
 	return bw.Flush()
+}
+
+// writeNPYHeader writes a version 1.0 .npy header for a C-order array of
+// shape (r, m, n) and the given dtype, padded to a multiple of 64 bytes.
+func writeNPYHeader(bw *bufio.Writer, descr string, r, m, n int) {
+	h := fmt.Sprintf("{'descr': '%s', 'fortran_order': False, 'shape': (%d, %d, %d), }", descr, r, m, n)
+	pad := 64 - (10+len(h)+1)%64
+	if pad == 64 {
+		pad = 0
+	}
+	h += strings.Repeat(" ", pad) + "\n"
+	bw.Write(npyMagic)
+	bw.Write([]byte{1, 0})
+	var l [2]byte
+	binary.LittleEndian.PutUint16(l[:], uint16(len(h)))
+	bw.Write(l[:])
+	bw.WriteString(h)
 }
