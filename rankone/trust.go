@@ -98,10 +98,11 @@ func (t *TrustRegion) Refine(ctx context.Context, w *subspace.Subspace, x, y []f
 
 // trPoint is a point of the sphere pair with its cost and gradient data.
 type trPoint struct {
-	pt   pair      // (x, y), unit
-	grad pair      // Riemannian gradient of f = −h, tangent
-	mat  []float64 // M = P_W(x yᵀ)
-	h, f float64   // h and f = d² (residual form)
+	pt    pair      // (x, y), unit
+	grad  pair      // Riemannian gradient of f = −h, tangent
+	mat   []float64 // M = P_W(x yᵀ)
+	h, f  float64   // h and f = d² (residual form)
+	phase bool      // a complex subspace: work in the horizontal space (see horizontal)
 }
 
 func newTRPoint(m, n int) *trPoint {
@@ -125,6 +126,7 @@ func (p *trPoint) eval(o *oracle) {
 	p.f = f
 	// grad f = −P(∇h)
 	negGradient(p.grad, p.pt, e)
+	p.horizontal(p.grad)
 }
 
 // euclidHessian writes ∇²h[(dx, dy)] at p into hd; u is scratch of length
@@ -164,6 +166,7 @@ func euclidHessian(o *oracle, p *trPoint, d, hd pair, u []float64) {
 func hess(o *oracle, p *trPoint, d, hd pair, u []float64) {
 	euclidHessian(o, p, d, hd, u)
 	negHessian(hd, p.pt, d, 2*p.h)
+	p.horizontal(hd)
 }
 
 // tcg is the truncated conjugate-gradient method of Steihaug and Toint
@@ -215,6 +218,7 @@ func (c *tcg) solve(ctx context.Context, o *oracle, p *trPoint, delta float64) {
 		c.heta.addScaled(alpha, c.hd)
 		c.r.addScaled(alpha, c.hd)
 		projectTangent(c.r, p.pt)
+		p.horizontal(c.r)
 		rrNew := pairDot(c.r, c.r)
 		if math.Sqrt(rrNew) <= r0*math.Min(r0, 0.1) {
 			break
@@ -268,6 +272,8 @@ func newTRRun(w *subspace.Subspace, x, y []float64, maxInner int) *trRun {
 	m, n := len(x), len(y)
 	r := &trRun{o: &oracle{w: w}, cur: newTRPoint(m, n), cand: newTRPoint(m, n),
 		cg: newTCG(m, n, maxInner), delta: trDeltaMax / 8}
+	complexField := w.Field() == subspace.Complex && m%2 == 0 && n%2 == 0
+	r.cur.phase, r.cand.phase = complexField, complexField
 	copy(r.cur.pt.x, x)
 	copy(r.cur.pt.y, y)
 	r.cur.eval(r.o)
@@ -313,4 +319,36 @@ func (r *trRun) step() bool {
 
 func (t *TrustRegion) check() error {
 	return CheckSettings("TrustRegion", []Setting{{"MaxIter", float64(t.MaxIter)}, {"MaxInner", float64(t.MaxInner)}, {"GradTol", float64(t.GradTol)}}...)
+}
+
+// horizontal removes from the tangent vector v its component along the
+// phase direction ω = (Jx, −Jy)/√2 of a complex subspace's realified
+// coordinates, J(re, im) = (−im, re) (the derivative of (e^{iθ}x, e^{−iθ}y)
+// at θ = 0; ‖Jx‖ = ‖x‖ = 1). h is constant along the phase orbit, so its
+// gradient is orthogonal to ω and its Hessian has ω in its kernel: without
+// the projection the truncated CG meets zero curvature there and stops at
+// the trust-region boundary. For a real subspace it does nothing.
+func (p *trPoint) horizontal(v pair) {
+	if !p.phase {
+		return
+	}
+	x, y := p.pt.x, p.pt.y
+	m, n := len(x)/2, len(y)/2
+	// v ← v − (v·ω̃)ω̃/‖ω̃‖² for the unnormalised ω̃ = (Jx, −Jy), ‖ω̃‖² = 2.
+	var c float64
+	for i := 0; i < m; i++ {
+		c += v.x[i]*(-x[m+i]) + v.x[m+i]*x[i]
+	}
+	for j := 0; j < n; j++ {
+		c -= v.y[j]*(-y[n+j]) + v.y[n+j]*y[j]
+	}
+	c /= 2
+	for i := 0; i < m; i++ {
+		v.x[i] -= c * (-x[m+i])
+		v.x[m+i] -= c * x[i]
+	}
+	for j := 0; j < n; j++ {
+		v.y[j] += c * (-y[n+j])
+		v.y[n+j] += c * y[j]
+	}
 }
