@@ -61,3 +61,52 @@ func FuzzStrategies(f *testing.F) {
 		}
 	})
 }
+
+// FuzzStrategiesComplex is FuzzStrategies over C: complex bases (r ≤ 3
+// matrices of m, n ≤ 2, real and imaginary parts from the bytes' float64
+// bit patterns) built by subspace.NewComplex; every strategy runs on the
+// realified subspace, its interval is translated to the complex distance
+// (complexIntervals), and every interval must be proper with no certified
+// Lower above any certified Upper (derived: all are proven for the same
+// stored subspace).
+func FuzzStrategiesComplex(f *testing.F) {
+	seed := func(r, m, n byte, vals ...float64) []byte {
+		b := []byte{r, m, n}
+		for _, v := range vals {
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+		}
+		return b
+	}
+	f.Add(seed(2, 2, 2, 1, 0, 0, 0, 0, 0, 1, 0, 0, 0, -1, 0, 1, 0, 0, 0))
+	f.Add(seed(1, 2, 2, 1e150, 1e-150, 0, 0, 0, 0, 5e-324, 1))
+	f.Add(seed(1, 1, 2, math.NaN(), 1, 2, 3))
+	ctx := context.Background()
+	f.Fuzz(func(t *testing.T, data []byte) {
+		if len(data) < 3 {
+			return
+		}
+		r, m, n := int(data[0]%3)+1, int(data[1]%2)+1, int(data[2]%2)+1
+		vals := make([]complex128, r*m*n)
+		words := (len(data) - 3) / 8
+		for i := range vals {
+			if words > 0 {
+				re := math.Float64frombits(binary.LittleEndian.Uint64(data[3+8*((2*i)%words):]))
+				im := math.Float64frombits(binary.LittleEndian.Uint64(data[3+8*((2*i+1)%words):]))
+				vals[i] = complex(re, im)
+			}
+		}
+		w, err := subspace.NewComplex(ctx, subspace.ComplexBasis{Count: r, Rows: m, Cols: n, Data: vals}, subspace.Options{})
+		if err != nil {
+			return
+		}
+		searchers := []rankone.Searcher{
+			rankone.Flattening{}, &rankone.ALS{}, &rankone.TrustRegion{},
+			&rankone.MultiStart{Starts: 3, Workers: 1},
+			&net.BranchBound{Gap: 1e-2, MaxNodes: 300, Workers: 1}, &net.Exhaustive{Epsilon: 0.3, Workers: 1},
+			&sos.Bound{MaxIter: 40},
+		}
+		if msg := inconsistent(complexIntervals(ctx, w, searchers)); msg != "" {
+			t.Fatal(msg)
+		}
+	})
+}
