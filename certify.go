@@ -360,20 +360,13 @@ func (m *merger) bounds() (lo, up float64) {
 // smaller of the translated real Upper and VerifyComplex at the witness
 // (which has no cancellation for tiny distances), and the complex witness.
 func complexReport(w *subspace.Subspace, rep *Report) {
-	cup := func(x, y []float64, realUpper float64) float64 {
-		u := rankone.ComplexUpper(realUpper)
-		if v, err := rankone.VerifyComplex(w, x, y); err == nil && v < u {
-			u = v
-		}
-		return u
-	}
-	up := cup(rep.X, rep.Y, rep.Upper)
+	up := rankone.ComplexUpperAt(w, rep.X, rep.Y, rep.Upper)
 	// A member's witness may prove a smaller complex Upper through its
 	// translated real Upper than the merged one does (the merge ranks by
 	// VerifyComplex): take the best, with its own witness.
 	for _, mb := range rep.Members {
 		if mb.Err == nil && mb.Result.X != nil {
-			if u := cup(mb.Result.X, mb.Result.Y, mb.Result.Upper); u < up {
+			if u := rankone.ComplexUpperAt(w, mb.Result.X, mb.Result.Y, mb.Result.Upper); u < up {
 				up, rep.X, rep.Y, rep.Upper, rep.FoundBy = u, mb.Result.X, mb.Result.Y, mb.Result.Upper, mb.Name
 			}
 		}
@@ -389,10 +382,7 @@ func complexReport(w *subspace.Subspace, rep *Report) {
 	rep.XC, rep.YC = subspace.ComplexWitness(rep.X, rep.Y)
 	for i := range rep.Members {
 		r := &rep.Members[i].Result
-		u := rankone.ComplexUpper(r.Upper)
-		if v, err := rankone.VerifyComplex(w, r.X, r.Y); err == nil && v < u {
-			u = v
-		}
+		u := rankone.ComplexUpperAt(w, r.X, r.Y, r.Upper)
 		r.Lower, r.Upper = rankone.ComplexLower(r.Lower), u
 	}
 }
@@ -432,8 +422,7 @@ func inputSpan(w *subspace.Subspace, rep Report, th float64, terr error) *InputS
 	switch {
 	case terr == nil:
 		in.Proven, in.Distance = true, th
-		in.Lower = math.Max(0, accurate.Down(rep.Lower-th))
-		in.Upper = math.Min(1, accurate.Up(rep.Upper+th))
+		in.Lower, in.Upper = rankone.Widen(rep.Lower, rep.Upper, th)
 	case errors.Is(terr, subspace.ErrDependent):
 		kept, left := w.RankGap()
 		in.Note = fmt.Sprintf("the input matrices are numerically dependent (rank %d at tolerance %.2g; last pivot kept %.2g, first left out %.2g): the interval holds for the stored basis only",

@@ -137,8 +137,9 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	}
 	p.File.Upper = math.Min(1, accurate.Up(up*(1+Margin)))
 	best, arg := 0.0, ArgNone
-	if _, lo := rankone.FlatteningBound(ctx, rw); lo > best {
-		best, arg = lo, ArgFlattening
+	flatH, flatLo := rankone.FlatteningBound(ctx, rw) // also Λ₀ of the cover check
+	if flatLo > best {
+		best, arg = flatLo, ArgFlattening
 	}
 	if ev.Certificate != nil {
 		if hb, err := sos.Verify(rw, *ev.Certificate); err == nil {
@@ -149,8 +150,7 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 		}
 	}
 	if ev.Cover != nil && len(ev.Cover.Cells) > 0 {
-		lam0, _ := rankone.FlatteningBound(ctx, rw)
-		if hu, err := net.CheckCover(ctx, rw, ev.Cover, math.Min(1, lam0)); err == nil {
+		if hu, err := net.CheckCover(ctx, rw, ev.Cover, math.Min(1, flatH)); err == nil {
 			if lo := rankone.DistanceLower(hu); lo > best {
 				best, arg = lo, ArgBranch
 				p.Cover = ev.Cover
@@ -272,8 +272,7 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 	}
 	c.Lower, c.Upper, c.RecomputedLower, c.RecomputedUpper, c.Argument = f.Lower, f.Upper, lo, up, f.LowerArgument
 	if c.InputChecked && c.InputNote == "" {
-		c.InputLower = math.Max(0, accurate.Down(f.Lower-c.InputDistance))
-		c.InputUpper = math.Min(1, accurate.Up(f.Upper+c.InputDistance))
+		c.InputLower, c.InputUpper = rankone.Widen(f.Lower, f.Upper, c.InputDistance)
 	}
 	return c, nil
 }

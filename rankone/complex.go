@@ -63,3 +63,14 @@ func ComplexUpper(upperR float64) float64 {
 	}
 	return math.Min(1, accurate.SqrtUp(v))
 }
+
+// ComplexUpperAt returns the certified complex Upper of a witness (X, Y)
+// of a complex subspace whose realified Upper is upperR: the smaller of
+// ComplexUpper(upperR) and VerifyComplex at the witness.
+func ComplexUpperAt(w *subspace.Subspace, x, y []float64, upperR float64) float64 {
+	u := ComplexUpper(upperR)
+	if v, err := VerifyComplex(w, x, y); err == nil && v < u {
+		u = v
+	}
+	return u
+}

@@ -196,3 +196,10 @@ func FormatLower(v float64, digits int) string { return accurate.FormatDown(v, d
 
 // FormatUpper writes a certified upper end rounded up (see FormatLower).
 func FormatUpper(v float64, digits int) string { return accurate.FormatUp(v, digits) }
+
+// Widen returns [lower − θ, upper + θ] rounded outward and kept in [0, 1]:
+// the interval on d* for a subspace within θ ≥ ‖P_V − P_W‖₂ of the one the
+// interval was proven for (|d*_V − d*_W| ≤ θ).
+func Widen(lower, upper, theta float64) (lo, up float64) {
+	return math.Max(0, accurate.Down(lower-theta)), math.Min(1, accurate.Up(upper+theta))
+}

@@ -77,12 +77,29 @@ func ReadInput(path string, maxBytes int64) (Input, error) {
 	if st, err := f.Stat(); err == nil && st.Mode().IsRegular() {
 		size = st.Size()
 	}
-	br := bufio.NewReader(f)
+	in, err := readInput(bufio.NewReader(f), maxBytes, size)
+	if err != nil {
+		return Input{}, fmt.Errorf("%s: %w", path, err)
+	}
+	return in, nil
+}
+
+// ParseInput is ReadInput for the bytes of a file already in memory (for
+// a caller that also hashes them): the same formats and checks.
+func ParseInput(data []byte, maxBytes int64) (Input, error) {
+	return readInput(bufio.NewReader(bytes.NewReader(data)), maxBytes, int64(len(data)))
+}
+
+// readInput tells .npy from text by the magic bytes, refuses zip archives,
+// reads, and refuses NaN/Inf and all-zero data; size is the stream's length
+// when known (−1 otherwise).
+func readInput(br *bufio.Reader, maxBytes, size int64) (Input, error) {
 	head, _ := br.Peek(len(npyMagic))
 	if bytes.HasPrefix(head, []byte("PK\x03\x04")) || bytes.HasPrefix(head, []byte("PK\x05\x06")) {
-		return Input{}, fmt.Errorf("%s: %w: a zip archive (an .npz file?): save one array with numpy.save as .npy", path, ErrFormat)
+		return Input{}, fmt.Errorf("%w: a zip archive (an .npz file?): save one array with numpy.save as .npy", ErrFormat)
 	}
 	var in Input
+	var err error
 	if bytes.Equal(head, npyMagic) {
 		in, err = readNPYInput(br, maxBytes, size)
 	} else {
@@ -95,10 +112,7 @@ func ReadInput(path string, maxBytes int64) (Input, error) {
 			err = checkValues(in.Real)
 		}
 	}
-	if err != nil {
-		return Input{}, fmt.Errorf("%s: %w", path, err)
-	}
-	return in, nil
+	return in, err
 }
 
 // checkComplexValues is checkValues for complex data.

@@ -456,40 +456,30 @@ func down(v float64, digits int) string { return accurate.FormatDown(v, digits) 
 func up(v float64, digits int) string   { return accurate.FormatUp(v, digits) }
 
 func vecString(v []float64) string {
-	var b strings.Builder
-	b.WriteString("[")
-	show := v
-	if len(v) > 8 {
-		show = v[:6]
-	}
-	for i, x := range show {
-		if i > 0 {
-			b.WriteString(" ")
-		}
-		fmt.Fprintf(&b, "%.6f", x)
-	}
-	if len(v) > 8 {
-		fmt.Fprintf(&b, " … (%d more)", len(v)-6)
-	}
-	b.WriteString("]")
-	return b.String()
+	return listString(len(v), 8, 6, func(i int) string { return fmt.Sprintf("%.6f", v[i]) })
 }
 
 func cvecString(v []complex128) string {
+	return listString(len(v), 6, 4, func(i int) string { return fmt.Sprintf("%.5f%+.5fi", real(v[i]), imag(v[i])) })
+}
+
+// listString writes n entries as "[e0 e1 …]", all of them when n ≤ all,
+// else the first keep and how many more.
+func listString(n, all, keep int, entry func(i int) string) string {
 	var b strings.Builder
 	b.WriteString("[")
-	show := v
-	if len(v) > 6 {
-		show = v[:4]
+	show := n
+	if n > all {
+		show = keep
 	}
-	for i, z := range show {
+	for i := 0; i < show; i++ {
 		if i > 0 {
 			b.WriteString(" ")
 		}
-		fmt.Fprintf(&b, "%.5f%+.5fi", real(z), imag(z))
+		b.WriteString(entry(i))
 	}
-	if len(v) > 6 {
-		fmt.Fprintf(&b, " … (%d more)", len(v)-4)
+	if n > all {
+		fmt.Fprintf(&b, " … (%d more)", n-keep)
 	}
 	b.WriteString("]")
 	return b.String()

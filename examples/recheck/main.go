@@ -80,16 +80,9 @@ func run(args []string, stdout, stderr io.Writer) int {
 		if inputBytes, err = os.ReadFile(rest[0]); err != nil {
 			return bad("%v", err)
 		}
-		tmp, err := os.CreateTemp("", "recheck-*")
+		in, err := subspace.ParseInput(inputBytes, 0)
 		if err != nil {
-			return bad("%v", err)
-		}
-		defer os.Remove(tmp.Name())
-		tmp.Write(inputBytes)
-		tmp.Close()
-		in, err := subspace.ReadInput(tmp.Name(), 0)
-		if err != nil {
-			return bad("%s: %s", rest[0], strings.TrimPrefix(oneLine(err), tmp.Name()+": "))
+			return bad("%s: %s", rest[0], oneLine(err))
 		}
 		if in.Field != subspace.Real {
 			return bad("%s: complex data: proofs of complex subspaces are not supported yet", rest[0])

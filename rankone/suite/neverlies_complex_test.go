@@ -53,11 +53,7 @@ func complexIntervals(ctx context.Context, w *subspace.Subspace, searchers []ran
 		if err != nil && res.X == nil {
 			continue
 		}
-		up := rankone.ComplexUpper(res.Upper)
-		if v, err := rankone.VerifyComplex(w, res.X, res.Y); err == nil && v < up {
-			up = v
-		}
-		bs = append(bs, bound{rankone.NameOf(s), rankone.ComplexLower(res.Lower), up})
+		bs = append(bs, bound{rankone.NameOf(s), rankone.ComplexLower(res.Lower), rankone.ComplexUpperAt(w, res.X, res.Y, res.Upper)})
 	}
 	return bs
 }
