@@ -210,6 +210,9 @@ type Bound struct {
 	// Keep, if non-nil, receives the certificate whose verification gave
 	// Lower (left unchanged when none was verified), for proof files.
 	Keep *Certificate
+	// KeepComplex is Keep for a complex subspace, whose certificate is a
+	// Hermitian matrix (see VerifyComplex).
+	KeepComplex *ComplexCertificate
 }
 
 var _ rankone.Searcher = (*Bound)(nil)
@@ -222,6 +225,9 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if err := rankone.CheckSettings("Bound", rankone.Setting{Name: "MaxIter", Value: float64(b.MaxIter)}); err != nil {
 		return rankone.TrivialResult(w, b.Name()), err
 	}
+	if w.Field() == subspace.Complex {
+		return b.searchComplex(ctx, w)
+	}
 	begin := time.Now()
 	m, n := w.Rows(), w.Cols()
 	res := startResult(w, b.Name())
@@ -229,20 +235,9 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 	if err != nil {
 		return res, err
 	}
-	var hook func(int, float64, float64, float64)
-	if b.Progress != nil {
-		gate := rankone.NewThrottle(b.Progress)
-		hook = func(it int, _, dual, _ float64) {
-			gate.Report(rankone.Progress{Searcher: b.Name(), Iteration: it, Estimate: dual, Upper: res.Upper})
-		}
-	}
-	sol, err := sdp.Solve(ctx, rel.Problem, sdp.Settings{MaxIter: b.MaxIter, Progress: hook})
+	sol, err := b.solve(ctx, rel.Problem, &res, 1)
 	if sol == nil {
 		return res, err
-	}
-	res.Iterations = sol.Iterations
-	if sol.Status != sdp.Optimal {
-		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
 	}
 	cert := rel.Certificate(sol.Y)
 	if hb, verr := Verify(w, cert); verr == nil {
@@ -264,6 +259,29 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 		res.LowerBy = exactLabel
 	}
 	return finishResult(ctx, res, begin, err)
+}
+
+// solve runs the interior-point method on p with Bound's settings and
+// throttled progress (the dual objective times scale as the estimate of
+// h, in the Result's coordinates), and records its iterations and, when
+// it did not reach its tolerance, the limit in res.
+func (b *Bound) solve(ctx context.Context, p sdp.Problem, res *rankone.Result, scale float64) (*sdp.Solution, error) {
+	var hook func(int, float64, float64, float64)
+	if b.Progress != nil {
+		gate := rankone.NewThrottle(b.Progress)
+		hook = func(it int, _, dual, _ float64) {
+			gate.Report(rankone.Progress{Searcher: b.Name(), Iteration: it, Estimate: dual * scale, Upper: res.Upper})
+		}
+	}
+	sol, err := sdp.Solve(ctx, p, sdp.Settings{MaxIter: b.MaxIter, Progress: hook})
+	if sol == nil {
+		return nil, err
+	}
+	res.Iterations = sol.Iterations
+	if sol.Status != sdp.Optimal {
+		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
+	}
+	return sol, err
 }
 
 // startResult is the Result every SOS searcher starts from: the trivial
