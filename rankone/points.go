@@ -25,7 +25,9 @@ var (
 )
 
 // AllPoints finds every rank-one matrix x yᵀ in W (up to sign and scale)
-// when they are finitely many and computable:
+// when they are finitely many and computable. For a complex subspace
+// (subspace.NewComplex) it finds the complex points by the same two methods
+// carried over to C (see ComplexPoints); over R:
 //
 //   - dim W = r ≤ min(m, n) and W = span{a_i b_iᵀ} with A, B of full column
 //     rank: simultaneous diagonalisation (Harshman 1970; Leurgans, Ross,
@@ -75,7 +77,9 @@ var _ Searcher = (*AllPoints)(nil)
 func (a *AllPoints) Name() string { return "all-points" }
 
 // Search returns the best of the points as a Result (d* = 0 in exact
-// arithmetic when points exist).
+// arithmetic when points exist). For a complex subspace the best is by
+// certified complex distance (ComplexPoints), and the Result is in the
+// real coordinates, as every complex Result.
 func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, error) {
 	if err := a.check(); err != nil {
 		return TrivialResult(w, a.Name()), err
@@ -100,9 +104,17 @@ func (a *AllPoints) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 }
 
 // Points returns all rank-one points of W, best first (see AllPoints).
+// For a complex subspace they are the points of ComplexPoints, in its
+// order (best complex distance first), as Points in the real coordinates
+// of every complex Result: Upper from Verify (the realified distance
+// √((1 + d²)/2) ≥ 1/√2, see package subspace) and Value h”; the
+// certified complex distances are those of ComplexPoints.
 func (a *AllPoints) Points(ctx context.Context, w *subspace.Subspace) ([]Point, error) {
 	if err := a.check(); err != nil {
 		return nil, err
+	}
+	if w.Field() == subspace.Complex {
+		return a.complexPoints(ctx, w)
 	}
 	m, n, r := w.Rows(), w.Cols(), w.Dim()
 	tol := orDefaultF(a.AcceptTol, 1e-8)
@@ -160,11 +172,11 @@ func jennrich(w *subspace.Subspace, rng *rand.Rand, noisy bool) ([][]float64, er
 	var cat, stack mat.Dense
 	cat.Augment(m1, m2)
 	stack.Stack(m1, m2)
-	u, err := topSingular(&cat, r, true, noisy)
+	u, err := topSingular(&cat, r, true, noisy, r)
 	if err != nil {
 		return nil, err
 	}
-	v, err := topSingular(&stack, r, false, noisy)
+	v, err := topSingular(&stack, r, false, noisy, r)
 	if err != nil {
 		return nil, err
 	}
@@ -193,18 +205,21 @@ func jennrich(w *subspace.Subspace, rng *rand.Rand, noisy bool) ([][]float64, er
 }
 
 // topSingular returns the r leading left (left = true) or right singular
-// vectors of a, failing if σ_r is not clearly nonzero.
-func topSingular(a *mat.Dense, r int, left, noisy bool) (*mat.Dense, error) {
+// vectors of a, failing if σ_r is not clearly nonzero (and, unless noisy,
+// if σ_{r+1} is not clearly zero). dimW is the dimension quoted in the
+// errors (r over R; r/2 for a realified complex matrix, whose singular
+// values come in pairs).
+func topSingular(a *mat.Dense, r int, left, noisy bool, dimW int) (*mat.Dense, error) {
 	var svd mat.SVD
 	if !svd.Factorize(a, mat.SVDThin) {
 		return nil, fmt.Errorf("%w: SVD failed", ErrNotSpanned)
 	}
 	s := svd.Values(nil)
 	if r > len(s) || s[r-1] <= 1e-10*s[0] {
-		return nil, fmt.Errorf("%w: the column or row space of W has dimension below dim W = %d", ErrNotSpanned, r)
+		return nil, fmt.Errorf("%w: the column or row space of W has dimension below dim W = %d", ErrNotSpanned, dimW)
 	}
 	if !noisy && r < len(s) && s[r] > 1e-8*s[0] {
-		return nil, fmt.Errorf("%w: the column or row space of W has dimension above dim W = %d, so W is not spanned by %d rank-one matrices", ErrNotSpanned, r, r)
+		return nil, fmt.Errorf("%w: the column or row space of W has dimension above dim W = %d, so W is not spanned by %d rank-one matrices", ErrNotSpanned, dimW, dimW)
 	}
 	var q mat.Dense
 	if left {
@@ -299,7 +314,7 @@ func pencilPoints(w *subspace.Subspace, rng *rand.Rand, swap bool) ([][]float64,
 		}
 	}
 	k := L - w.Dim()
-	nb, err := topSingular(comp, k, true, true) // L×k; I − P_W has rank k exactly
+	nb, err := topSingular(comp, k, true, true, k) // L×k; I − P_W has rank k exactly
 	if err != nil {
 		return nil, err
 	}

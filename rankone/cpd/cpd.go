@@ -8,6 +8,10 @@
 // k is Σ_i c_ik a_i b_iᵀ, so the slices span W ⊆ span{a_i b_iᵀ}, with equality
 // when C has full column rank; the a_i b_iᵀ are then the rank-one points of
 // W (rankone.AllPoints), and C follows by linear least squares.
+//
+// Complex arrays (ComplexTensor, DecomposeComplex) are decomposed the same
+// way over C, through the complex rank-one points of the complex slice span
+// (rankone.AllPoints.ComplexPoints); see the notes in complex.go.
 package cpd
 
 import (
