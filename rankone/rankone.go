@@ -140,7 +140,22 @@ var (
 // subspace.ResidualBound, a proven upper bound on dist(x⊗y, W), and the
 // denominator a proven lower bound on ‖x‖‖y‖ (accurate.SumSqLower, rounded
 // square roots); the quotient is rounded upwards.
+//
+// For a complex subspace (the realified W” of 2m×2n matrices) the bound
+// comes from the complex residual instead, which reads half the data:
+// at unit X, Y, d”² = (1 + d²)/2 exactly (h = 2h”, see package subspace),
+// so VerifyComplex's bound u on d gives √((1 + u²)/2), rounded up.
 func Verify(w *subspace.Subspace, x, y []float64) (float64, error) {
+	if w.Field() == subspace.Complex && len(x) == w.Rows() && len(y) == w.Cols() {
+		u, err := VerifyComplex(w, x, y)
+		if err != nil {
+			return 1, err
+		}
+		if !(u < 1) {
+			return 1, nil
+		}
+		return math.Min(1, accurate.SqrtUp(accurate.Up(accurate.AddUp(1, accurate.MulUp(u, u))/2))), nil
+	}
 	return verifyWith(w, x, y, w.ResidualBound)
 }
 
