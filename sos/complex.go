@@ -1,14 +1,12 @@
 package sos
 
 import (
-	"bufio"
 	"context"
 	"fmt"
 	"io"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
-	"strconv"
 	"time"
 
 	"gonum.org/v1/gonum/blas"
@@ -228,9 +226,9 @@ func VerifyComplex(w *subspace.Subspace, c ComplexCertificate) (float64, error) 
 const maxComplexOrder = 36
 
 // ComplexRelaxation is the level-one (PPT) relaxation of a complex
-// subspace in the form of internal/sdp: one block of order 4L holding X_ρ
-// (rows 0..2L−1) and X_σ (rows 2L..4L−1), which stay block diagonal
-// along the solver's iterates; WriteSDPA exports the two blocks as such.
+// subspace in the form of internal/sdp: two blocks of order 2L, block 0
+// holding X_ρ and block 1 holding X_σ (WriteSDPA exports the same two
+// blocks).
 type ComplexRelaxation struct {
 	Problem sdp.Problem
 	m, n    int
@@ -241,22 +239,22 @@ type ComplexRelaxation struct {
 // E_aa (a = b, kind 0), E_ab + E_ba (kind 1), i(E_ab − E_ba) (kind 2).
 type hermElem struct{ a, b, kind int }
 
-// entries returns the upper-triangle entries of R(E) in a block of order
-// 2L starting at off.
-func (e hermElem) entries(L, off int) []sdp.Entry {
+// entries returns the upper-triangle entries of R(E) in the block blk
+// (of order 2L).
+func (e hermElem) entries(L, blk int) []sdp.Entry {
 	a, b := e.a, e.b
 	switch e.kind {
 	case 0:
-		return []sdp.Entry{{I: off + a, J: off + a, V: 1}, {I: off + L + a, J: off + L + a, V: 1}}
+		return []sdp.Entry{{Block: blk, I: a, J: a, V: 1}, {Block: blk, I: L + a, J: L + a, V: 1}}
 	case 1:
 		if a > b {
 			a, b = b, a
 		}
-		return []sdp.Entry{{I: off + a, J: off + b, V: 1}, {I: off + L + a, J: off + L + b, V: 1}}
+		return []sdp.Entry{{Block: blk, I: a, J: b, V: 1}, {Block: blk, I: L + a, J: L + b, V: 1}}
 	default:
 		// E[a][b] = i, E[b][a] = −i: R(E) has −Im E at (a, L+b) and (b, L+a):
 		// −1 at (a, L+b), +1 at (b, L+a).
-		return []sdp.Entry{{I: off + a, J: off + L + b, V: -1}, {I: off + b, J: off + L + a, V: 1}}
+		return []sdp.Entry{{Block: blk, I: a, J: L + b, V: -1}, {Block: blk, I: b, J: L + a, V: 1}}
 	}
 }
 
@@ -294,7 +292,7 @@ func LevelOneComplex(w *subspace.Subspace) (*ComplexRelaxation, error) {
 		return nil, err
 	}
 	r := &ComplexRelaxation{m: m, n: n}
-	r.Problem.N = 4 * L
+	r.Problem.Blocks = []int{2 * L, 2 * L}
 	for a := 0; a < 2*L; a++ {
 		for b := a; b < 2*L; b++ {
 			if v := p.At(a, b); v != 0 {
@@ -315,10 +313,10 @@ func LevelOneComplex(w *subspace.Subspace) (*ComplexRelaxation, error) {
 		}
 	}
 	for _, e := range r.basis {
-		row := e.entries(L, 2*L)
+		row := e.entries(L, 1)
 		g, sign := e.gammaOf(n)
 		for _, x := range g.entries(L, 0) {
-			row = append(row, sdp.Entry{I: x.I, J: x.J, V: -sign * x.V})
+			row = append(row, sdp.Entry{Block: 0, I: x.I, J: x.J, V: -sign * x.V})
 		}
 		r.Problem.A = append(r.Problem.A, row)
 		r.Problem.B = append(r.Problem.B, 0)
@@ -358,31 +356,7 @@ func (r *ComplexRelaxation) Certificate(y []float64) ComplexCertificate {
 // blocks through the t-th element of the real basis of Hermitian matrices
 // (diagonal, real pair, imaginary pair, in the order a ≤ b).
 func (r *ComplexRelaxation) WriteSDPA(wr io.Writer) error {
-	bw := bufio.NewWriter(wr)
-	p := r.Problem
-	half := p.N / 2
-	fmt.Fprintf(bw, "\"level-one PPT relaxation over C, %dx%d\n%d\n2\n%d %d\n", r.m, r.n, len(p.A), half, half)
-	for i, b := range p.B {
-		if i > 0 {
-			bw.WriteByte(' ')
-		}
-		bw.WriteString(strconv.FormatFloat(b, 'g', -1, 64))
-	}
-	bw.WriteByte('\n')
-	write := func(mat int, es []sdp.Entry) {
-		for _, e := range es {
-			blk, i, j := 1, e.I, e.J
-			if i >= half {
-				blk, i, j = 2, i-half, j-half
-			}
-			fmt.Fprintf(bw, "%d %d %d %d %s\n", mat, blk, i+1, j+1, strconv.FormatFloat(e.V, 'g', -1, 64))
-		}
-	}
-	write(0, p.C)
-	for i, a := range p.A {
-		write(i+1, a)
-	}
-	return bw.Flush()
+	return writeSDPA(wr, fmt.Sprintf("level-one PPT relaxation over C, %dx%d", r.m, r.n), r.Problem)
 }
 
 // searchComplex is Bound.Search on a complex subspace: the PPT relaxation,
@@ -411,7 +385,7 @@ func (b *Bound) searchComplex(ctx context.Context, w *subspace.Subspace) (rankon
 		}
 	}
 	m, n := w.ComplexShape()
-	if x, y, ok := roundComplex(sol.X, m, n); ok {
+	if x, y, ok := roundComplex(sol.X[0], m, n); ok {
 		keepBetter(ctx, w, &res, x, y)
 	}
 	if res.LowerBy != "" && closed(res) {
@@ -420,23 +394,17 @@ func (b *Bound) searchComplex(ctx context.Context, w *subspace.Subspace) (rankon
 	return finishResult(ctx, res, begin, err)
 }
 
-// roundComplex takes the top eigenvector v of the X_ρ block, z = v[:L] +
-// i·v[L:], reshapes it to the complex m×n matrix Zm, and returns the real
-// coordinates of its top singular pair (x, y) with Zm ≈ σ x yᵀ, by the
-// power iteration x ∝ Zm ȳ, y ∝ Zmᵀ x̄ (a rounding heuristic; the witness
-// is polished and certified afterwards).
-func roundComplex(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
+// roundComplex takes the top eigenvector v of the X_ρ block xr (order 2L),
+// z = v[:L] + i·v[L:], reshapes it to the complex m×n matrix Zm, and
+// returns the real coordinates of its top singular pair (x, y) with
+// Zm ≈ σ x yᵀ, by the power iteration x ∝ Zm ȳ, y ∝ Zmᵀ x̄ (a rounding
+// heuristic; the witness is polished and certified afterwards).
+func roundComplex(xr *mat.SymDense, m, n int) ([]float64, []float64, bool) {
 	L := m * n
-	if x == nil || x.SymmetricDim() < 2*L {
+	if xr == nil || xr.SymmetricDim() != 2*L {
 		return nil, nil, false
 	}
-	blk := mat.NewSymDense(2*L, nil)
-	for a := 0; a < 2*L; a++ {
-		for b := a; b < 2*L; b++ {
-			blk.SetSym(a, b, x.At(a, b))
-		}
-	}
-	_, vecs, ok := eigen.Sym(blk, true)
+	_, vecs, ok := eigen.Sym(xr, true)
 	if !ok {
 		return nil, nil, false
 	}

@@ -318,7 +318,7 @@ func TestRoundComplex(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	x, y, ok := roundComplex(sol.X, 2, 3)
+	x, y, ok := roundComplex(sol.X[0], 2, 3)
 	if !ok {
 		t.Fatal("rounding failed")
 	}
@@ -332,7 +332,7 @@ func TestRoundComplex(t *testing.T) {
 	blk := mat.NewSymDense(12, nil)
 	for a := 0; a < 12; a++ {
 		for b := a; b < 12; b++ {
-			blk.SetSym(a, b, sol.X.At(a, b))
+			blk.SetSym(a, b, sol.X[0].At(a, b))
 		}
 	}
 	if v, _, ok := eigen.Sym(blk, false); ok && v[len(v)-3] > 1e-5 {

@@ -136,7 +136,7 @@ func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
 // its orbit.
 func (e *extension) problem() (sdp.Problem, [][2]int) {
 	dim := e.dim
-	p := sdp.Problem{N: dim}
+	p := sdp.Problem{Blocks: []int{dim}}
 	for a := 0; a < dim; a++ {
 		for b := a; b < dim; b++ {
 			if v := e.chat[a*dim+b]; v != 0 {
@@ -301,7 +301,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s
 	// reshaping has top left singular vector ≈ x and right vector ≈ (y_p y_q),
 	// whose symmetric n×n form has top eigenvector ≈ ±y. Then polish.
-	if _, vecs, ok := eigen.Sym(sol.X, true); ok {
+	if _, vecs, ok := eigen.Sym(sol.X[0], true); ok {
 		top := mat.Col(nil, dim-1, vecs)
 		var svd mat.SVD
 		if svd.Factorize(mat.NewDense(m, e.s, top), mat.SVDThin) {

@@ -137,7 +137,7 @@ func LevelOne(w *subspace.Subspace) (*Relaxation, error) {
 	for a := 0; a < L; a++ {
 		tr[a] = sdp.Entry{I: a, J: a, V: 1}
 	}
-	r.Problem.N = L
+	r.Problem.Blocks = []int{L}
 	r.Problem.A = append(r.Problem.A, tr)
 	r.Problem.B = append(r.Problem.B, 1)
 	r.pairs = append(r.pairs, [4]int{})
@@ -249,7 +249,7 @@ func (b *Bound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Resul
 		}
 	}
 	// Round the moment matrix to a point.
-	if x, y, ok := round(sol.X, m, n); ok {
+	if x, y, ok := round(sol.X[0], m, n); ok {
 		keepBetter(ctx, w, &res, x, y)
 	}
 	// "Exact" is said only when the certified interval shows it: the
@@ -361,9 +361,23 @@ func round(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
 // convention max tr(F₀X) s.t. tr(F_iX) = c_i, X ⪰ 0 that CSDP uses);
 // constraint 1 is tr ρ = 1 and the others are ρ_ab − ρ_T(ab) = 0.
 func (r *Relaxation) WriteSDPA(wr io.Writer) error {
+	return writeSDPA(wr, fmt.Sprintf("level-one moment relaxation, %dx%d", r.m, r.n), r.Problem)
+}
+
+// writeSDPA writes p in the SDPA sparse format: a comment line with title,
+// the number of constraints, the number of blocks and their orders, the
+// right-hand sides, then one line "matrix block i j value" (1-based, upper
+// triangle) per entry, matrix 0 being the objective.
+func writeSDPA(wr io.Writer, title string, p sdp.Problem) error {
 	bw := bufio.NewWriter(wr)
-	p := r.Problem
-	fmt.Fprintf(bw, "\"level-one moment relaxation, %dx%d\n%d\n1\n%d\n", r.m, r.n, len(p.A), p.N)
+	fmt.Fprintf(bw, "\"%s\n%d\n%d\n", title, len(p.A), len(p.Blocks))
+	for i, n := range p.Blocks {
+		if i > 0 {
+			bw.WriteByte(' ')
+		}
+		bw.WriteString(strconv.Itoa(n))
+	}
+	bw.WriteByte('\n')
 	for i, b := range p.B {
 		if i > 0 {
 			bw.WriteByte(' ')
@@ -373,7 +387,7 @@ func (r *Relaxation) WriteSDPA(wr io.Writer) error {
 	bw.WriteByte('\n')
 	write := func(mat int, es []sdp.Entry) {
 		for _, e := range es {
-			fmt.Fprintf(bw, "%d 1 %d %d %s\n", mat, e.I+1, e.J+1, strconv.FormatFloat(e.V, 'g', -1, 64))
+			fmt.Fprintf(bw, "%d %d %d %d %s\n", mat, e.Block+1, e.I+1, e.J+1, strconv.FormatFloat(e.V, 'g', -1, 64))
 		}
 	}
 	write(0, p.C)

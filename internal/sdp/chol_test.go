@@ -9,14 +9,33 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
+// paths runs f on each path this build has: the portable code (gonum's
+// BLAS and plain loops) and, where the processor has them, the kernels of
+// kernel_amd64.s; useKernels is restored after.
+func paths(t *testing.T, f func(t *testing.T)) {
+	t.Helper()
+	defer func(v bool) { useKernels = v }(useKernels)
+	useKernels = false
+	t.Run("portable", f)
+	if kernelsAvailable {
+		useKernels = true
+		t.Run("kernels", f)
+	}
+}
+
 // The blocked factorisation agrees with gonum's mat.Cholesky (the reference
 // library) on random positive definite matrices whose order is not a
 // multiple of the block or tile sizes, solves to the accuracy backward
 // stability promises, and reports an indefinite matrix and a cancelled
-// context.
-func TestCholAgainstGonum(t *testing.T) {
+// context; on both paths. The orders cover the tile path's corners: one
+// block column (k ≤ 128), block columns cut inside a tile (k mod 12, k mod
+// 4 ≠ 0), the inner diagonal blocks (k = 5, 17), and enough column strips
+// for the trailing update to be split between goroutines (k ≥ 320).
+func TestCholAgainstGonum(t *testing.T) { paths(t, testChol) }
+
+func testChol(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
-	for _, k := range []int{1, 5, 63, 64, 65, 300, 600} {
+	for _, k := range []int{1, 5, 17, 63, 64, 65, 129, 300, 600} {
 		g := mat.NewDense(k, k, nil)
 		for i := 0; i < k; i++ {
 			for j := 0; j < k; j++ {

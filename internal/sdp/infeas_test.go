@@ -14,8 +14,8 @@ func TestInfeasibleDetected(t *testing.T) {
 		name string
 		p    Problem
 	}{
-		{"primal-infeasible", Problem{N: 2, C: []Entry{{0, 0, 1}}, A: [][]Entry{{{0, 0, 1}}}, B: []float64{-1}}},
-		{"unbounded", Problem{N: 2, C: []Entry{{0, 1, 0.5}}, A: [][]Entry{{{0, 0, 1}}}, B: []float64{1}}},
+		{"primal-infeasible", Problem{Blocks: []int{2}, C: []Entry{{I: 0, J: 0, V: 1}}, A: [][]Entry{{{I: 0, J: 0, V: 1}}}, B: []float64{-1}}},
+		{"unbounded", Problem{Blocks: []int{2}, C: []Entry{{I: 0, J: 1, V: 0.5}}, A: [][]Entry{{{I: 0, J: 0, V: 1}}}, B: []float64{1}}},
 	}
 	for _, c := range cases {
 		sol, err := Solve(context.Background(), c.p, Settings{MaxIter: 200})

@@ -1,15 +1,42 @@
 // Package sdp is a primal-dual interior-point solver for semidefinite
-// programs with one dense block and sparse constraint matrices:
+// programs over block-diagonal matrices with sparse constraint matrices:
 //
 //	primal  max ⟨C, X⟩  s.t. ⟨A_i, X⟩ = b_i (i = 1..k), X ⪰ 0,
 //	dual    min bᵀy     s.t. Z = Σ_i y_i A_i − C ⪰ 0,
 //
-// (the convention of the SDPA sparse format as CSDP reads it). It follows
-// the HKM search direction (Helmberg, Rendl, Vanderbei, Wolkowicz, SIAM J.
-// Optim. 6, 1996; Kojima, Shindoh, Hara, SIAM J. Optim. 7, 1997; Monteiro,
-// SIAM J. Optim. 7, 1997) with Mehrotra's predictor-corrector (SIAM J.
-// Optim. 2, 1992), from the infeasible start X = Z = αI, and assembles the
-// Schur complement M_ij = ⟨A_i, Z⁻¹A_jX⟩ using the sparsity of the A_i.
+// where X, Z, C and every A_i are block diagonal with the same dense
+// diagonal blocks (the convention of the SDPA sparse format as CSDP reads
+// it). It follows the HKM search direction (Helmberg, Rendl, Vanderbei,
+// Wolkowicz, SIAM J. Optim. 6, 1996; Kojima, Shindoh, Hara, SIAM J. Optim.
+// 7, 1997; Monteiro, SIAM J. Optim. 7, 1997) with Mehrotra's
+// predictor-corrector (SIAM J. Optim. 2, 1992), from the infeasible start
+// X = Z = αI, and assembles the Schur complement M_ij = ⟨A_i, Z⁻¹A_jX⟩ from
+// the sparsity of the A_i (schur.go).
+//
+// Blocks. Everything the iteration does to X and Z is done block by block:
+// the inverse, the products of the search direction, the step lengths (the
+// largest step of a block-diagonal matrix is the smallest over its blocks).
+// A problem whose blocks are given as one larger block (zero between them)
+// has the same iterates in exact arithmetic: the HKM direction of a
+// block-diagonal iterate is block diagonal, and the solver's start, duality
+// measure μ = ⟨X, Z⟩/n (n the sum of the orders) and stopping rules read
+// only quantities that are sums over the blocks.
+//
+// Cost of an iteration: the Schur complement's assembly, Σ_ij nnz_i·nnz_j
+// over shared blocks (schur.go), its Cholesky factorisation, k³/3 (chol.go,
+// tiles.go), and a few dense products and eigenvalue problems of each
+// block's order (dense.go, eigtop.go). On amd64 processors with AVX2 and
+// FMA the products, the factorisation and the assembly's sums run through
+// the assembly kernels of kernel_amd64.s; elsewhere, and in builds with the
+// tag purego, through gonum's BLAS and plain Go loops.
+//
+// Determinism. On a given processor and build, the result depends only on
+// the problem and the settings: the work split between goroutines (Schur
+// complement rows, column strips of its factorisation) never changes which
+// operations produce a number, nor their order, so GOMAXPROCS does not
+// change it.
+//
+// Inputs are never modified; a Solution owns its matrices.
 package sdp
 
 import (
@@ -18,23 +45,33 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/mat"
-
-	"github.com/segre-lab/segre/internal/eigen"
 )
 
-// Entry is one entry (I ≤ J, 0-based) of a symmetric sparse matrix: the
-// matrix has V at (I, J) and at (J, I).
+// Entry is one entry of a symmetric sparse block-diagonal matrix: its
+// diagonal block number Block (0-based, an index into Problem.Blocks) has V
+// at (I, J) and at (J, I), with 0 ≤ I ≤ J < Problem.Blocks[Block]. Entries
+// repeated in one matrix add up.
 type Entry struct {
-	I, J int
-	V    float64
+	Block int
+	I, J  int
+	V     float64
 }
 
 // Problem is an SDP in the form of the package doc.
 type Problem struct {
-	N int       // order of the block
-	C []Entry   // objective, upper triangle
-	A [][]Entry // constraint matrices, upper triangles
-	B []float64 // right-hand sides
+	Blocks []int     // orders of the diagonal blocks of X (and Z, C, A_i)
+	C      []Entry   // objective, upper triangles of its blocks
+	A      [][]Entry // constraint matrices, upper triangles of their blocks
+	B      []float64 // right-hand sides
+}
+
+// Order returns the sum of the orders of p's blocks.
+func (p Problem) Order() int {
+	var n int
+	for _, b := range p.Blocks {
+		n += b
+	}
+	return n
 }
 
 // Status says how Solve ended.
@@ -51,7 +88,7 @@ const (
 
 // Solution is the solver's output.
 type Solution struct {
-	X, Z         *mat.SymDense
+	X, Z         []*mat.SymDense // one per block of the Problem
 	Y            []float64
 	Primal, Dual float64 // ⟨C, X⟩ and bᵀy
 	RelGap       float64
@@ -68,38 +105,38 @@ type Settings struct {
 	Progress func(iter int, primal, dual, gap float64)
 }
 
-// ErrShape reports an inconsistent problem.
-var ErrShape = errors.New("sdp: inconsistent problem")
+// Errors of Solve.
+var (
+	ErrShape    = errors.New("sdp: inconsistent problem")
+	ErrTooLarge = errors.New("sdp: problem too large for memory")
+)
 
-func dense(n int, e []Entry) *mat.SymDense {
-	s := mat.NewSymDense(n, nil)
-	for _, x := range e {
-		s.SetSym(x.I, x.J, s.At(x.I, x.J)+x.V)
-	}
-	return s
-}
+// maxBytes bounds the memory Solve allocates for its dense matrices: 16
+// matrices of the order of each block (the iterate, its inverse factors,
+// the directions, scratch) and two k×k matrices (the Schur complement and
+// its factor), 8 bytes an entry.
+const maxBytes = 1 << 34
 
-// inner returns ⟨A, S⟩ for sparse A and a dense matrix S (not necessarily symmetric).
-func inner(a []Entry, s mat.Matrix) float64 {
-	var t float64
-	for _, e := range a {
-		if e.I == e.J {
-			t += e.V * s.At(e.I, e.I)
-		} else {
-			t += e.V * (s.At(e.I, e.J) + s.At(e.J, e.I))
-		}
+// memory returns the bytes of dense storage Solve needs for p (computed in
+// floating point, so it cannot overflow).
+func memory(p Problem) float64 {
+	k := float64(len(p.A))
+	t := 2 * k * k
+	for _, n := range p.Blocks {
+		t += 16 * float64(n) * float64(n)
 	}
-	return t
+	return 8 * t
 }
 
 // Solve solves p.
 //
 // The run is a plain loop over the state of hkm.go: record the iterate and
-// report progress, test for stop, then one predictor-corrector step (invert
-// Z, assemble and factor the Schur complement, predictor, corrector,
-// update). ctx is checked at the top of every iteration, while the Schur
-// complement is assembled and inside its factorisation; a cancelled run
-// returns the current iterate with status Cancelled and ctx's error.
+// report progress, test for stop, then one predictor-corrector step (factor
+// X and Z and invert Z, assemble and factor the Schur complement,
+// predictor, corrector, update). ctx is checked at the top of every
+// iteration, while the Schur complement is assembled and inside its
+// factorisation; a cancelled run returns the current iterate with status
+// Cancelled and ctx's error.
 func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 	if err := check(p); err != nil {
 		return nil, err
@@ -117,7 +154,7 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		if out, done := s.stopTest(); done {
 			return out, nil
 		}
-		if !s.invertZ() {
+		if !s.factorIterate() {
 			return s.numericalStop(), nil
 		}
 		s.schur(ctx)
@@ -131,32 +168,55 @@ func Solve(ctx context.Context, p Problem, set Settings) (*Solution, error) {
 		if !ok {
 			return s.numericalStop(), nil
 		}
-		dxa, dza, sigma, ok := s.predictor()
+		sigma, ok := s.predictor()
 		if !ok {
 			return s.numericalStop(), nil
 		}
-		dx, dy, dz := s.corrector(sigma, dxa, dza)
-		if dx == nil {
+		if !s.corrector(sigma) {
 			return s.numericalStop(), nil
 		}
-		s.update(dx, dy, dz)
+		s.update()
 	}
 	s.record(s.maxIter)
 	return s.sol, nil
 }
 
-// check reports ErrShape unless p has a positive order, one right-hand side
-// per constraint, and finite entries inside the upper triangle.
+// check reports ErrShape unless p has at least one block, every block a
+// positive order, one finite right-hand side per constraint, and finite
+// entries inside the upper triangle of an existing block; and ErrTooLarge
+// when the dense storage would exceed maxBytes.
 func check(p Problem) error {
-	n, k := p.N, len(p.A)
-	if n <= 0 || len(p.B) != k {
+	if len(p.Blocks) == 0 || len(p.B) != len(p.A) {
 		return ErrShape
 	}
-	for _, a := range append([][]Entry{p.C}, p.A...) {
+	for _, n := range p.Blocks {
+		if n <= 0 {
+			return ErrShape
+		}
+	}
+	if memory(p) > maxBytes {
+		return ErrTooLarge
+	}
+	ok := func(a []Entry) bool {
 		for _, e := range a {
-			if e.I < 0 || e.J < e.I || e.J >= n || math.IsNaN(e.V) || math.IsInf(e.V, 0) {
-				return ErrShape
+			if e.Block < 0 || e.Block >= len(p.Blocks) || e.I < 0 || e.J < e.I || e.J >= p.Blocks[e.Block] ||
+				math.IsNaN(e.V) || math.IsInf(e.V, 0) {
+				return false
 			}
+		}
+		return true
+	}
+	if !ok(p.C) {
+		return ErrShape
+	}
+	for _, a := range p.A {
+		if !ok(a) {
+			return ErrShape
+		}
+	}
+	for _, b := range p.B {
+		if math.IsNaN(b) || math.IsInf(b, 0) {
+			return ErrShape
 		}
 	}
 	return nil
@@ -175,98 +235,4 @@ func numericalStop(cur, best *Solution) *Solution {
 	}
 	s.Status = NumericalLimit
 	return s
-}
-
-// subSym sets a = a − b.
-func subSym(a, b *mat.SymDense) {
-	n := a.SymmetricDim()
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			a.SetSym(i, j, a.At(i, j)-b.At(i, j))
-		}
-	}
-}
-
-func scaled(a *mat.SymDense, s float64) *mat.SymDense {
-	var o mat.SymDense
-	o.ScaleSym(s, a)
-	return &o
-}
-
-func trace(a, b mat.Matrix) float64 {
-	r, _ := a.Dims()
-	var t float64
-	for i := 0; i < r; i++ {
-		for j := 0; j < r; j++ {
-			t += a.At(i, j) * b.At(j, i)
-		}
-	}
-	return t
-}
-
-// traceProd returns tr(A·G) = Σ_ij A_ij G_ji.
-func traceProd(a *mat.SymDense, g mat.Matrix) float64 { return trace(a, g) }
-
-// maxStep returns the largest α (capped at 1e6) with S + αD ⪰ 0 for S ≻ 0:
-// 1/λmax(−L⁻¹DL⁻ᵀ) with S = LLᵀ.
-func maxStep(s, d *mat.SymDense) float64 {
-	var ch mat.Cholesky
-	if !ch.Factorize(s) {
-		return 0
-	}
-	var l mat.TriDense
-	ch.LTo(&l)
-	n := s.SymmetricDim()
-	var li mat.TriDense
-	if err := li.InverseTri(&l); err != nil {
-		return 0
-	}
-	var t mat.Dense
-	t.Mul(&li, d)
-	t.Mul(&t, li.T())
-	ts := mat.NewSymDense(n, nil)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			ts.SetSym(i, j, -(t.At(i, j)+t.At(j, i))/2)
-		}
-	}
-	v, _, ok := eigen.Sym(ts, false)
-	if !ok {
-		return 0
-	}
-	top := v[len(v)-1]
-	if top <= 1e-12 {
-		return 1e6
-	}
-	return 1 / top
-}
-
-func fill(sol *Solution, p Problem, c *mat.SymDense, x *mat.SymDense, y []float64, z *mat.SymDense, it int, bn, cn float64) {
-	n := p.N
-	sol.X = mat.NewSymDense(n, append([]float64(nil), x.RawSymmetric().Data...))
-	sol.Z = mat.NewSymDense(n, append([]float64(nil), z.RawSymmetric().Data...))
-	sol.Y = append([]float64(nil), y...)
-	sol.Primal = traceProd(c, x)
-	var d float64
-	for i, v := range p.B {
-		d += v * y[i]
-	}
-	sol.Dual = d
-	sol.RelGap = math.Abs(sol.Primal-sol.Dual) / (1 + math.Abs(sol.Primal) + math.Abs(sol.Dual))
-	var rp float64
-	for i := range p.A {
-		r := p.B[i] - inner(p.A[i], x)
-		rp += r * r
-	}
-	sol.PrimalInfeas = math.Sqrt(rp) / (1 + bn)
-	rd := mat.NewSymDense(n, nil)
-	for i := range p.A {
-		for _, e := range p.A[i] {
-			rd.SetSym(e.I, e.J, rd.At(e.I, e.J)+y[i]*e.V)
-		}
-	}
-	subSym(rd, c)
-	subSym(rd, z)
-	sol.DualInfeas = mat.Norm(rd, 2) / (1 + cn)
-	sol.Iterations = it
 }

@@ -13,18 +13,18 @@ func TestThetaC5(t *testing.T) {
 	var c []Entry
 	for i := 0; i < n; i++ {
 		for j := i; j < n; j++ {
-			c = append(c, Entry{i, j, 1})
+			c = append(c, Entry{I: i, J: j, V: 1})
 		}
 	}
 	var tr []Entry
 	for i := 0; i < n; i++ {
-		tr = append(tr, Entry{i, i, 1})
+		tr = append(tr, Entry{I: i, J: i, V: 1})
 	}
-	p := Problem{N: n, C: c, A: [][]Entry{tr}, B: []float64{1}}
+	p := Problem{Blocks: []int{n}, C: c, A: [][]Entry{tr}, B: []float64{1}}
 	for i := 0; i < n; i++ {
 		j := (i + 1) % n
 		a, b := min(i, j), max(i, j)
-		p.A = append(p.A, []Entry{{a, b, 0.5}})
+		p.A = append(p.A, []Entry{{I: a, J: b, V: 0.5}})
 		p.B = append(p.B, 0)
 	}
 	sol, err := Solve(context.Background(), p, Settings{})
@@ -46,14 +46,14 @@ func TestMaxCutC5(t *testing.T) {
 		j := (i + 1) % n
 		diag[i]++
 		diag[j]++
-		c = append(c, Entry{min(i, j), max(i, j), -0.25})
+		c = append(c, Entry{I: min(i, j), J: max(i, j), V: -0.25})
 	}
 	for i := 0; i < n; i++ {
-		c = append(c, Entry{i, i, diag[i] / 4})
+		c = append(c, Entry{I: i, J: i, V: diag[i] / 4})
 	}
-	p := Problem{N: n, C: c}
+	p := Problem{Blocks: []int{n}, C: c}
 	for i := 0; i < n; i++ {
-		p.A = append(p.A, []Entry{{i, i, 1}})
+		p.A = append(p.A, []Entry{{I: i, J: i, V: 1}})
 		p.B = append(p.B, 1)
 	}
 	sol, err := Solve(context.Background(), p, Settings{})
