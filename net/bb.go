@@ -3,6 +3,7 @@ package net
 import (
 	"context"
 	"math"
+	"time"
 
 	"github.com/segre-lab/segre/internal/accurate"
 	"github.com/segre-lab/segre/rankone"
@@ -68,7 +69,19 @@ type BranchBound struct {
 	// it. Every leaf is kept (about 80 + 16(D−1) bytes each, its box shared
 	// with the search), so the record grows with the cells evaluated: it is
 	// bounded by MaxNodes, not by MaxFrontier or the subspace's MemoryLimit.
+	// A sharded run's record is a part (Cover.Part; CheckPart checks it).
 	Record *Cover
+	// Shard, if Count > 0, runs only part Index of Count of a deterministic
+	// partition of the initial cells (see Shard for the partition and why a
+	// part's bound is proven without the others). With Count ≥ 2 the Result
+	// proves no Lower (0): the part's own level is checked by CheckPart and
+	// the parts are joined by JoinParts. Zero means the whole sphere.
+	Shard Shard
+	// Budget, if positive, ends the search after the first batch that
+	// finishes once Budget has elapsed, as a limit (status LimitReached,
+	// rankone.TimeLimit) rather than a cancellation, so that Record keeps
+	// its cover. Zero means no budget beyond the context.
+	Budget time.Duration
 }
 
 var _ rankone.Searcher = (*BranchBound)(nil)

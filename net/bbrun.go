@@ -57,6 +57,7 @@ type bbRun struct {
 	// point cell; cover adds the frontier at the end.
 	record bool
 	leaves []CoverCell
+	part   Part // a sharded run's part (BranchBound.Shard; see selectPart)
 }
 
 // batch is the number of splits a batch holds at most (see choose).
@@ -86,17 +87,30 @@ func (r *bbRun) setup(ctx context.Context) error {
 	r.limit = rankone.NoLimit
 	if r.d == 1 {
 		r.pending = []*cell{{face: 0}}
+		if r.sharded() {
+			// One initial cell, the point: part 0 has it, the others none.
+			r.part = Part{Index: r.b.Shard.Index, Count: r.b.Shard.Count}
+			if r.b.Shard.Index == 0 {
+				r.part.Roots = []int{0}
+			} else {
+				r.pending = nil
+			}
+		}
 		return nil
 	}
-	return r.initial()
+	return r.initial(ctx)
 }
 
 // settings checks BranchBound's fields and resolves their zero values.
 func (r *bbRun) settings() error {
 	b, w := r.b, r.w
 	if err := rankone.CheckSettings("BranchBound", []rankone.Setting{{Name: "Gap", Value: b.Gap}, {Name: "AbsGap", Value: b.AbsGap},
-		{Name: "MaxNodes", Value: float64(b.MaxNodes)}, {Name: "MaxFrontier", Value: float64(b.MaxFrontier)}, {Name: "Workers", Value: float64(b.Workers)}}...); err != nil {
+		{Name: "MaxNodes", Value: float64(b.MaxNodes)}, {Name: "MaxFrontier", Value: float64(b.MaxFrontier)}, {Name: "Workers", Value: float64(b.Workers)},
+		{Name: "Budget", Value: b.Budget.Seconds()}}...); err != nil {
 		return err
+	}
+	if err := checkShard(b.Shard); err != nil {
+		return fmt.Errorf("%w: %v", rankone.ErrOption, err)
 	}
 	r.begin = time.Now()
 	r.gap = b.Gap
@@ -152,13 +166,16 @@ func (r *bbRun) incumbent(ctx context.Context) error {
 // initial lays out the first batch: each face split into 4 per coordinate
 // (2 when that would not fit). It refuses sizes whose first split cannot
 // fit the frontier.
-func (r *bbRun) initial() error {
+func (r *bbRun) initial(ctx context.Context) error {
 	d := r.d
 	per := int64(1) << (d - 1)
 	if d > 20 || int64(d)*per > int64(r.maxFront) {
 		return fmt.Errorf("%w: min(m, n) = %d needs %d cells per split, frontier limit %d", ErrTooLarge, d, int64(d)*per, r.maxFront)
 	}
 	deep := int64(d)*per*per <= int64(r.maxFront)/4
+	if r.sharded() {
+		deep = shardLevel(d) == 2 // every part lays out the same cells
+	}
 	var init []*cell
 	for f := 0; f < d; f++ {
 		root := &cell{face: f, lo: make([]float64, d-1), hi: make([]float64, d-1)}
@@ -172,6 +189,9 @@ func (r *bbRun) initial() error {
 				init = append(init, c)
 			}
 		}
+	}
+	if r.sharded() {
+		init = r.selectPart(ctx, init)
 	}
 	r.pending = init
 	return nil
@@ -213,7 +233,11 @@ func (r *bbRun) evaluate(ctx context.Context, cells []*cell) (vecs [][]float64) 
 // single point S^0.
 func (r *bbRun) step(ctx context.Context) bool {
 	if r.d == 1 {
-		r.point(ctx)
+		if len(r.pending) > 0 {
+			r.point(ctx)
+		} else {
+			r.status = rankone.GapReached // a part without the point: nothing to do
+		}
 		return false
 	}
 	if r.pending == nil && !r.choose() {
@@ -227,8 +251,12 @@ func (r *bbRun) step(ctx context.Context) bool {
 	r.merge(ctx, vecs)
 	r.rebound(ctx)
 	r.pending = nil
+	lower := rankone.DistanceLower(r.lam)
+	if r.partial() {
+		lower = 0 // a part's Λ is not a bound on h* (see Shard)
+	}
 	r.gate.Report(rankone.Progress{Searcher: r.b.Name(), Nodes: r.nodes, Frontier: len(r.front),
-		Upper: r.res.Upper, Lower: rankone.DistanceLower(r.lam)})
+		Upper: r.res.Upper, Lower: lower})
 	return true
 }
 
@@ -325,7 +353,7 @@ func (r *bbRun) cover() Cover {
 	}
 	cells := r.leaves
 	r.leaves = nil
-	return Cover{D: r.d, OnX: r.sd.onX, Cells: cells}
+	return Cover{D: r.d, OnX: r.sd.onX, Cells: cells, Part: r.part}
 }
 
 // rebound lowers Λ after a merged batch.
@@ -394,6 +422,8 @@ func (r *bbRun) stop(ctx context.Context) bool {
 		r.status = rankone.Cancelled
 	case r.nodes >= r.maxNodes:
 		r.limit = rankone.NodeLimit
+	case r.b.Budget > 0 && time.Since(r.begin) >= r.b.Budget:
+		r.limit = rankone.TimeLimit
 	case len(r.front) >= r.maxFront:
 		r.limit = rankone.FrontierLimit
 	default:
@@ -448,7 +478,7 @@ func (r *bbRun) result(ctx context.Context) (rankone.Result, error) {
 		res.Limit = r.limit
 	}
 	res.Evaluations += r.nodes
-	if lo := rankone.DistanceLower(r.lam); lo > 0 {
+	if lo := rankone.DistanceLower(r.lam); lo > 0 && !r.partial() {
 		res.Lower = lo
 		res.LowerBy = fmt.Sprintf("branch-and-bound (%d cells)", r.nodes)
 	}

@@ -5,8 +5,10 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"sync/atomic"
 	"testing"
+	"time"
 
 	"github.com/segre-lab/segre/internal/reference"
 	"github.com/segre-lab/segre/rankone"
@@ -65,17 +67,17 @@ func runCover(t *testing.T, b *BranchBound, w *subspace.Subspace) (rankone.Resul
 //     rounded down as Λ_run ≤ 1 − Lower² + 2⁻⁵⁰, the slack covering those
 //     roundings) within a small factor on h, checked as follows.
 //     From lambda0 = the flattening bound, where the run itself started,
-//     hUpper ≤ Λ_run·(1 + 2·Gap): the check iterates the same cell bounds
-//     (bit for bit) over the same leaves to their fixed point, whereas the
-//     run keyed its cells with older, larger Λ and stopped once within Gap
-//     (an expectation, not a theorem: a leaf's fresh bound may exceed its
-//     parent's key). From any lambda0 (derived on CheckCover), the iteration
-//     stops at most at the largest cell fixed point
-//     Λ_c = f̄_c(1 + ρ_c), ρ_c = 4r_c²/(1 − r_c²)², and f̄_c ≤ h* up to the
-//     verified test's rounding-level slack, so
-//     hUpper ≤ min(lambda0, Λ_run·(1 + ρ(r_max)))·(1 + 1e-9) with r_max the
-//     largest leaf radius (the factor 1e-9 covers the slack of f̄ and the
-//     iteration stopping a few rounding steps above its limit).
+//     hUpper ≤ Λ_run·(1 + 2·Gap): the check bounds the same leaves with the
+//     same cell bounds (bit for bit on amd64) at the least level they all
+//     pass, whereas the run keyed its cells with older, larger Λ and
+//     stopped once within Gap (an expectation, not a theorem: a leaf's
+//     fresh bound may exceed its parent's key). From any lambda0 (derived on
+//     CheckCover), the level is at most the largest cell fixed point
+//     Λ_c = f̄_c(1 + ρ_c), ρ_c = 4r_c²/(1 − r_c²)², raised by a few relative
+//     rounding steps, and f̄_c ≤ h* up to the verified test's rounding-level
+//     slack, so hUpper ≤ min(lambda0, Λ_run·(1 + ρ(r_max)))·(1 + 1e-9) with
+//     r_max the largest leaf radius (the factor 1e-9 covers the slack of f̄
+//     and those rounding steps).
 func TestCoverRoundTrip(t *testing.T) {
 	ctx := context.Background()
 	for _, tc := range coverCases(t) {
@@ -416,5 +418,126 @@ func TestCoverCancelled(t *testing.T) {
 		if c.Cells != nil {
 			t.Errorf("n = %d: cancelled in the middle: %d cells recorded", n, len(c.Cells))
 		}
+	}
+}
+
+// The check's own assembly (checkBound: the upper triangle only, reused
+// buffers, through the packed triangles or not) gives side.bound's proven
+// f̄: bit for bit on amd64, where gonum's Axpy multiplies and then adds, as
+// assembleUpper's explicitly rounded products do and as the packed path's
+// Axpy does on the same entries (derived on BlockForm.assembleUpper and
+// upperForm); elsewhere (a pure-Go Axpy the
+// compiler may fuse) within a relative 1e-12 — derived: each entry of the
+// two matrices differs by at most one rounding of each of the d² products,
+// at most d²·u·max|M̂_ab| ≈ 9·1.1e-16 here, so λmax and the verified bound
+// move by at most p times that, about 3e-14 ≪ 1e-12.
+func TestCheckBoundMatchesSearch(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	for _, in := range []suite.Instance{suite.Random(3, 5, 4, 1), suite.Hyperplane(3, 4, 1), suite.Random(5, 3, 6, 2)} {
+		w := suite.MustNew(t, in)
+		s := newSide(w)
+		if s.form == nil {
+			t.Fatalf("%s: no block form", in.Name)
+		}
+		buf := make([]float64, s.p*s.p)
+		packed := newUpperForm(s.form)
+		acc := make([]float64, packed.t)
+		for trial := 0; trial < 10; trial++ {
+			c := reference.RandUnit(rng, s.d)
+			v := make([]float64, s.p)
+			_, up, raw := s.value(c, v)
+			for _, pk := range []*upperForm{packed, nil} {
+				got := s.checkBound(c, raw, pk, buf, acc)
+				switch {
+				case runtime.GOARCH == "amd64" && got != up:
+					t.Errorf("%s (packed %v): checkBound %v, value's bound %v (want bit for bit on amd64)", in.Name, pk != nil, got, up)
+				case math.Abs(got-up) > 1e-12*math.Abs(up):
+					t.Errorf("%s (packed %v): checkBound %v, value's bound %v", in.Name, pk != nil, got, up)
+				}
+			}
+		}
+	}
+}
+
+// oldIteration is the check's former fixed-point iteration (kept here as a
+// reference): U₀ = min(lambda0, 1), U_{k+1} = max_c cellBound(f̄_c, r_c, U_k)
+// while it decreases; every iterate is a proven bound by induction.
+func oldIteration(fbar, rad []float64, lambda0 float64) float64 {
+	u := math.Min(lambda0, 1)
+	for it := 0; it < coverIterations; it++ {
+		var t float64
+		for i := range fbar {
+			t = math.Max(t, cellBound(fbar[i], rad[i], u))
+		}
+		if !(t < u) {
+			break
+		}
+		u = t
+	}
+	return u
+}
+
+// settle's level passes (the condition of the lemma on CheckCover holds at
+// it for every cell), and it is the old iteration's end up to the few
+// relative steps by which the candidate is raised (≤ 1e-12: derived on
+// CheckCover, both approach the largest cell fixed point, the iteration
+// from above by steps of ratio (1 + r²)/2, the candidate from its plain
+// evaluation, both stopping within rounding of it). A cell with r ≥ 1 has no
+// passing level: settle returns min(lambda0, 1) as the iteration does.
+func TestSettle(t *testing.T) {
+	ctx := context.Background()
+	for _, tc := range coverCases(t) {
+		t.Run(tc.name, func(t *testing.T) {
+			_, c := runCover(t, &BranchBound{Gap: 1e-5, Workers: 2}, tc.w)
+			fbar, rad, err := cellBounds(ctx, tc.w, &c)
+			if err != nil {
+				t.Fatal(err)
+			}
+			flat, _ := rankone.FlatteningBound(ctx, tc.w)
+			for _, l0 := range []float64{1, flat} {
+				u, err := settle(ctx, fbar, rad, l0)
+				if err != nil {
+					t.Fatal(err)
+				}
+				old := oldIteration(fbar, rad, l0)
+				if u < math.Min(l0, 1) && !passes(fbar, rad, u) {
+					t.Errorf("lambda0 %v: level %v does not pass", l0, u)
+				}
+				if u > old*(1+1e-12) || u < old*(1-1e-12) {
+					t.Errorf("lambda0 %v: level %v, old iteration %v", l0, u, old)
+				}
+			}
+		})
+	}
+	// One cell, by hand (derived here): r = 1/4, f̄ = 1/2: the fixed point of
+	// ψ is Λ_c = f̄(1 + 4r²/(1 − r²)²) = 0.5·(1 + 0.25/0.87890625).
+	want := 0.5 * (1 + 0.25/0.87890625)
+	u, _ := settle(ctx, []float64{0.5}, []float64{0.25}, 1)
+	if math.Abs(u-want) > 1e-13 || !passes([]float64{0.5}, []float64{0.25}, u) {
+		t.Errorf("one cell: level %v, want %v", u, want)
+	}
+	if u, _ := settle(ctx, []float64{0.5, 0.1}, []float64{0.25, 1}, 0.9); u != 0.9 {
+		t.Errorf("a cell with r = 1: level %v, want lambda0 0.9", u)
+	}
+}
+
+// A run ended by its own time budget is a limit, not a cancellation: it
+// keeps its cover (leaves and frontier), which re-checks to a bound that
+// never exceeds the run's certified Upper (the duality oracle).
+func TestBudgetKeepsCover(t *testing.T) {
+	w := suite.MustNew(t, suite.Random(3, 5, 7, 2))
+	res, c := runCover(t, &BranchBound{Gap: 1e-12, Budget: time.Nanosecond, Workers: 2}, w)
+	if res.Status != rankone.LimitReached || res.Limit != rankone.TimeLimit {
+		t.Fatalf("status %v, limit %v", res.Status, res.Limit)
+	}
+	h, err := CheckCover(context.Background(), w, &c, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lo := rankone.DistanceLower(h); lo > res.Upper {
+		t.Errorf("DistanceLower(%v) = %v > the run's Upper %v", h, lo, res.Upper)
+	}
+	if _, err := (&BranchBound{Budget: -time.Second}).Search(context.Background(), w); !errors.Is(err, rankone.ErrOption) {
+		t.Errorf("negative Budget: %v", err)
 	}
 }

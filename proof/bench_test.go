@@ -67,3 +67,51 @@ func BenchmarkRecheckRatio(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkShardedRecheck reports, for the branch-and-bound benchmark
+// instance (3×32, as BenchmarkRecheckRatio) split into 3 parts run one
+// after the other: the parts' total and longest search time (the longest
+// is the cluster's wall time), the merge (recheck merge: the parts' checks,
+// one evaluation per cell), the re-check of the merged proof, and the ratio
+// of that re-check to the parts' total.
+func BenchmarkShardedRecheck(b *testing.B) {
+	ctx := context.Background()
+	in := suite.Random(3, 32, 48, 1)
+	const n = 3
+	var find, longest, merge, check time.Duration
+	for b.Loop() {
+		w := suite.MustNew(b, in)
+		parts := make([]*Proof, n)
+		for i := range parts {
+			var cv net.Cover
+			t0 := time.Now()
+			res, err := (&net.BranchBound{Record: &cv, Shard: net.Shard{Index: i, Count: n}}).Search(ctx, w)
+			if err != nil {
+				b.Fatal(err)
+			}
+			d := time.Since(t0)
+			find += d
+			longest = max(longest, d)
+			if parts[i], err = Build(ctx, Evidence{W: w, X: res.X, Y: res.Y, Cover: &cv}); err != nil {
+				b.Fatal(err)
+			}
+		}
+		t0 := time.Now()
+		whole, err := Merge(ctx, parts, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		merge += time.Since(t0)
+		t0 = time.Now()
+		if _, err := Check(ctx, whole, &in.Basis, nil); err != nil {
+			b.Fatal(err)
+		}
+		check += time.Since(t0)
+	}
+	nb := float64(b.N)
+	b.ReportMetric(find.Seconds()/nb, "parts-find-s")
+	b.ReportMetric(longest.Seconds()/nb, "longest-part-s")
+	b.ReportMetric(merge.Seconds()/nb, "merge-s")
+	b.ReportMetric(check.Seconds()/nb, "recheck-s")
+	b.ReportMetric(check.Seconds()/find.Seconds(), "ratio")
+}

@@ -12,9 +12,18 @@
 //     bit on another machine;
 //   - certificate.npy (lower argument "sos-level-1"): the mn×mn matrix K of
 //     the level-one certificate;
-//   - cells.npy (lower argument "branch-and-bound"): one row per leaf cell of
-//     the branch-and-bound cover: face, guess, then the box's lower and upper
-//     corners.
+//   - cells.npy (lower arguments "branch-and-bound" and
+//     "branch-and-bound-part"): one row per leaf cell of the branch-and-bound
+//     cover: face, guess, then the box's lower and upper corners (absent for
+//     a part that has no cells).
+//
+// A part proof (lower argument "branch-and-bound-part", written by a run of
+// one part of a sharded branch-and-bound, net.Shard) proves no Lower by
+// itself (its "lower" is 0): its "part" object says which part it is
+// (index, count, the level of the initial cells and the ranks of its own)
+// and claims a lower bound that holds unless the minimum distance is
+// reached in another part (net.CheckPart). Merge checks a complete set of
+// parts and joins them into one ordinary branch-and-bound proof.
 //
 // Check re-verifies every claim: the stored vectors' orthogonality defect;
 // when the input basis is given, its SHA-256 and a proven distance θ from
@@ -40,6 +49,9 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
+	"path/filepath"
+	"slices"
 
 	"github.com/segre-lab/segre/internal/accurate"
 	"github.com/segre-lab/segre/net"
@@ -57,6 +69,10 @@ var (
 	// ErrInput: the input basis given to Check cannot be compared with the
 	// proof (another shape, unreadable data).
 	ErrInput = errors.New("proof: the input basis does not fit the proof")
+	// ErrParts: the part proofs given to Merge do not make one whole (a part
+	// missing or repeated, parts of different inputs, stored bases or
+	// partitions, a proof that is not a part; the message names it).
+	ErrParts = errors.New("proof: the parts do not make a whole")
 )
 
 // The arguments behind Lower.
@@ -65,29 +81,50 @@ const (
 	ArgFlattening = "flattening"
 	ArgSOS1       = "sos-level-1"
 	ArgBranch     = "branch-and-bound"
+	ArgBranchPart = "branch-and-bound-part"
 )
 
 // Margin is the relative amount by which a writer weakens its claims (see
 // the package doc).
 const Margin = 1e-9
 
+// maxCoverD is the largest cover dimension Read accepts (branch-and-bound
+// refuses sides above 20; the bound keeps a hostile file from sizing
+// arrays by it).
+const maxCoverD = 64
+
 // File is proof.json.
 type File struct {
-	Format           string    `json:"format"`
-	Version          int       `json:"version"`
-	InputSHA256      string    `json:"input_sha256"` // hex; empty when the input was not a file
-	Field            string    `json:"field"`
-	Rows             int       `json:"rows"`
-	Cols             int       `json:"cols"`
-	StoredCount      int       `json:"stored_count"`
-	StoresComplement bool      `json:"stores_complement"`
-	X                []float64 `json:"x"`
-	Y                []float64 `json:"y"`
-	Upper            float64   `json:"upper"`
-	Lower            float64   `json:"lower"`
-	LowerArgument    string    `json:"lower_argument"`
-	CoverD           int       `json:"cover_d,omitempty"`
-	CoverOnX         bool      `json:"cover_on_x,omitempty"`
+	Format           string     `json:"format"`
+	Version          int        `json:"version"`
+	InputSHA256      string     `json:"input_sha256"` // hex; empty when the input was not a file
+	Field            string     `json:"field"`
+	Rows             int        `json:"rows"`
+	Cols             int        `json:"cols"`
+	StoredCount      int        `json:"stored_count"`
+	StoresComplement bool       `json:"stores_complement"`
+	X                []float64  `json:"x"`
+	Y                []float64  `json:"y"`
+	Upper            float64    `json:"upper"`
+	Lower            float64    `json:"lower"`
+	LowerArgument    string     `json:"lower_argument"`
+	CoverD           int        `json:"cover_d,omitempty"`
+	CoverOnX         bool       `json:"cover_on_x,omitempty"`
+	Part             *PartClaim `json:"part,omitempty"` // ArgBranchPart only
+}
+
+// PartClaim is the "part" object of a part proof (ArgBranchPart).
+type PartClaim struct {
+	Index int `json:"index"` // part Index of Count
+	Count int `json:"count"`
+	// Level and InitialCells are net.Part's Level and Roots: the bisection
+	// level of the partition's initial cells and the ranks of this part's.
+	Level        int   `json:"level"`
+	InitialCells []int `json:"initial_cells"`
+	// Lower is the claim: d* ≥ Lower, unless the minimum distance is reached
+	// only in other parts (net.CheckPart's level, as a distance, weakened by
+	// Margin).
+	Lower float64 `json:"lower"`
 }
 
 // Proof is a proof file in memory.
@@ -136,8 +173,11 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 		return nil, err
 	}
 	p.File.Upper = math.Min(1, accurate.Up(up*(1+Margin)))
-	best, arg := 0.0, ArgNone
 	flatH, flatLo := rankone.FlatteningBound(ctx, rw) // also Λ₀ of the cover check
+	if ev.Cover != nil && ev.Cover.Part.Count > 0 {
+		return buildPart(ctx, p, rw, ev.Cover, flatH)
+	}
+	best, arg := 0.0, ArgNone
 	if flatLo > best {
 		best, arg = flatLo, ArgFlattening
 	}
@@ -173,6 +213,23 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	return p, nil
 }
 
+// buildPart finishes a part proof: the part's level recomputed by
+// net.CheckPart from lambda0 (the flattening bound), claimed as a distance
+// weakened by Margin; Lower is 0 (a part proves no Lower by itself).
+func buildPart(ctx context.Context, p *Proof, rw *subspace.Subspace, cv *net.Cover, lambda0 float64) (*Proof, error) {
+	hu, err := net.CheckPart(ctx, rw, cv, math.Min(1, lambda0))
+	if err != nil {
+		return nil, err
+	}
+	p.Cover = cv
+	p.File.CoverD, p.File.CoverOnX = cv.D, cv.OnX
+	p.File.LowerArgument = ArgBranchPart
+	p.File.Part = &PartClaim{Index: cv.Part.Index, Count: cv.Part.Count, Level: cv.Part.Level,
+		InitialCells: append([]int{}, cv.Part.Roots...),
+		Lower:        math.Max(0, accurate.Down(rankone.DistanceLower(hu)*(1-Margin)))}
+	return p, nil
+}
+
 // Confirmed is what Check proved.
 type Confirmed struct {
 	// Lower and Upper are the claims, confirmed for the stored subspace.
@@ -190,6 +247,11 @@ type Confirmed struct {
 	InputNote              string
 	Argument               string
 	OrthogonalityBound     float64
+	// Part is the confirmed claim of a part proof (nil for a whole proof),
+	// and RecomputedPartLower the part's lower bound the check itself
+	// proved (at least Part.Lower). Lower is then 0.
+	Part                *PartClaim
+	RecomputedPartLower float64
 }
 
 // Check re-verifies p (see the package doc). input, when non-nil, is the
@@ -261,6 +323,21 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 			return c, fmt.Errorf("%w: cover: %v", ErrClaim, err)
 		}
 		lo = rankone.DistanceLower(hu)
+	case ArgBranchPart:
+		if p.Cover == nil || f.Part == nil {
+			return c, fmt.Errorf("%w: part argument without its part or cells", ErrClaim)
+		}
+		lam0, _ := rankone.FlatteningBound(ctx, w)
+		hu, err := net.CheckPart(ctx, w, p.Cover, math.Min(1, lam0))
+		if err != nil {
+			return c, fmt.Errorf("%w: part %d of %d: %v", ErrClaim, f.Part.Index, f.Part.Count, err)
+		}
+		plo := rankone.DistanceLower(hu)
+		if !(plo >= f.Part.Lower) || f.Part.Lower < 0 {
+			return c, fmt.Errorf("%w: part %d of %d: its cells prove d* ≥ %v unless the minimum lies in another part, not ≥ %v as claimed",
+				ErrClaim, f.Part.Index, f.Part.Count, plo, f.Part.Lower)
+		}
+		c.Part, c.RecomputedPartLower = f.Part, plo
 	default:
 		return c, fmt.Errorf("%w: unknown lower argument %q", ErrFormat, f.LowerArgument)
 	}
@@ -311,7 +388,7 @@ func Write(wr io.Writer, p *Proof) error {
 			return err
 		}
 	}
-	if p.Cover != nil {
+	if p.Cover != nil && len(p.Cover.Cells) > 0 {
 		buf.Reset()
 		if err := subspace.WriteNPY(&buf, coverArray(p.Cover)); err != nil {
 			return err
@@ -321,6 +398,49 @@ func Write(wr io.Writer, p *Proof) error {
 		}
 	}
 	return z.Close()
+}
+
+// WriteFile writes p to the file at path atomically: into a temporary file
+// in the same folder, synced, then renamed over path, so that a reader (or a
+// killed writer) never leaves a half-written proof under that name.
+func WriteFile(path string, p *Proof) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), ".proof-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(tmp.Name())
+	if err := Write(tmp, p); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Sync(); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Close(); err != nil {
+		return err
+	}
+	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
+		return err
+	}
+	return os.Rename(tmp.Name(), path)
+}
+
+// ReadFile reads the proof file at path (see Read).
+func ReadFile(path string) (*Proof, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return nil, err
+	}
+	if !st.Mode().IsRegular() {
+		return nil, fmt.Errorf("%w: %s is not a regular file", ErrFormat, path)
+	}
+	return Read(f, st.Size())
 }
 
 func member(z *zip.Writer, name string, data []byte) error {
@@ -372,6 +492,9 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 		}
 		return nil, false, nil
 	}
+	has := func(name string) bool {
+		return slices.ContainsFunc(z.File, func(f *zip.File) bool { return f.Name == name })
+	}
 	js, ok, err := get("proof.json")
 	if err != nil || !ok {
 		return nil, fmt.Errorf("%w: no proof.json (%v)", ErrFormat, err)
@@ -408,22 +531,33 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 			return nil, err
 		}
 	}
+	if f.Part != nil && f.LowerArgument != ArgBranchPart {
+		return nil, fmt.Errorf("%w: a part object in a %q proof", ErrFormat, f.LowerArgument)
+	}
 	switch f.LowerArgument {
 	case ArgSOS1:
 		L := f.Rows * f.Cols
 		if p.Certificate, err = arr("certificate.npy", L, L); err != nil {
 			return nil, err
 		}
-	case ArgBranch:
-		if f.CoverD < 1 {
+	case ArgBranch, ArgBranchPart:
+		if f.CoverD < 1 || f.CoverD > maxCoverD {
 			return nil, fmt.Errorf("%w: cover dimension %d", ErrFormat, f.CoverD)
 		}
+		if f.LowerArgument == ArgBranchPart && f.Part == nil {
+			return nil, fmt.Errorf("%w: a part proof without its part object", ErrFormat)
+		}
 		k := f.CoverD - 1
-		cells, err := arr("cells.npy", -1, 2+2*k)
-		if err != nil {
-			return nil, err
+		var cells []float64
+		if has("cells.npy") || f.Part == nil || len(f.Part.InitialCells) > 0 { // only an empty part has none
+			if cells, err = arr("cells.npy", -1, 2+2*k); err != nil {
+				return nil, err
+			}
 		}
 		cv := &net.Cover{D: f.CoverD, OnX: f.CoverOnX}
+		if pc := f.Part; pc != nil {
+			cv.Part = net.Part{Index: pc.Index, Count: pc.Count, Level: pc.Level, Roots: append([]int{}, pc.InitialCells...)}
+		}
 		for r := 0; r+2+2*k <= len(cells); r += 2 + 2*k {
 			row := cells[r : r+2+2*k]
 			face := int(row[0])

@@ -20,7 +20,6 @@ import (
 	"math"
 	"os"
 	"os/signal"
-	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
@@ -59,6 +58,8 @@ type config struct {
 	field    string // "auto", "real" or "complex"
 	dims     [2]int // -dims m,n: reshape r vectors of length m·n (0: off)
 	proof    string // -proof FILE: write a re-checkable proof there
+	shard    [2]int // -shard i/N: run part i of N of branch-and-bound (N = 0: off)
+	timeSet  bool   // -time was given (with -shard, no budget otherwise)
 	file     string
 }
 
@@ -67,6 +68,9 @@ FILE is a basis: .npy of shape (r, m, n) or (m, n), or plain text; without
 FILE the embedded demo runs. Flags may come before or after FILE.
 Exit status: 0 certified to the gap, 3 budget spent first, 4 nothing more
 to try, 2 bad input, 130 interrupted, 1 internal failure.
+With -shard i/N -proof FILE: prove part i of N of branch-and-bound and write
+the part proof (exit 0 part done to the gap, 3 its budget ran out, the part
+proof written all the same); merge the N parts with examples/recheck merge.
 Flags:`
 
 func newFlags(c *config) *flag.FlagSet {
@@ -82,6 +86,15 @@ func newFlags(c *config) *flag.FlagSet {
 	fs.Int64Var(&c.maxBytes, "maxbytes", 0, "memory limit in bytes for reading and orthonormalising (0: 4 GiB)")
 	fs.Float64Var(&c.gap, "gap", 1e-6, "requested relative gap on h*: the search stops when the certified interval meets it")
 	fs.StringVar(&c.proof, "proof", "", "write a re-checkable proof of the interval to this file (zip; check it with examples/recheck)")
+	fs.Func("shard", "i/N: prove part i (0 ≤ i < N) of a partition of branch-and-bound's initial cells into N parts, write it to -proof (merge the N parts with: recheck merge); -time is then the part's budget, none unless given", func(s string) error {
+		var i, n int
+		var rest string
+		if k, _ := fmt.Sscanf(s, "%d/%d%s", &i, &n, &rest); k != 2 || n < 1 || i < 0 || i >= n || n > maxShards {
+			return fmt.Errorf("want i/N with 0 ≤ i < N ≤ %d, got %q", maxShards, s)
+		}
+		c.shard = [2]int{i, n}
+		return nil
+	})
 	fs.StringVar(&c.field, "field", "auto", "field of the problem: auto (complex data over C, real data over R), real, or complex (real data over C)")
 	fs.Func("dims", "m,n: FILE holds r vectors of length m·n (one r×(m·n) array), each the row-major m×n matrix of a state on C^m⊗C^n or R^m⊗R^n", func(s string) error {
 		var m, n int
@@ -128,7 +141,12 @@ func parse(args []string, stderr io.Writer) (config, int, bool) {
 		return bad("-dims needs a FILE")
 	case len(files) > 1:
 		return bad("at most one FILE, got %d: %s", len(files), strings.Join(files, ", "))
+	case c.shard[1] > 0 && c.proof == "":
+		return bad("-shard needs -proof FILE (the part proof to write)")
+	case c.shard[1] > 0 && c.field == "complex":
+		return bad("-shard: proofs of complex subspaces are not supported yet")
 	}
+	fs.Visit(func(f *flag.Flag) { c.timeSet = c.timeSet || f.Name == "time" })
 	if len(files) == 1 {
 		c.file = files[0]
 	}
@@ -181,6 +199,9 @@ func run(args []string, stdout, stderr io.Writer) int {
 	// Interrupt (Ctrl-C) stops every phase; -time budgets the search.
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
+	if c.shard[1] > 0 {
+		return runShard(ctx, c, in, source, stdout, stderr)
+	}
 	opt := segre.Options{Budget: c.budget, Gap: c.gap, Starts: c.starts, Seed: c.seed,
 		Subspace: subspace.Options{RankTol: c.tol, MaxBytes: c.maxBytes}, Proof: c.proof != ""}
 	var pr *progressLine
@@ -501,24 +522,5 @@ func writeProof(path, input string, rep segre.Report) error {
 		}
 		rep.Proof.File.InputSHA256 = proof.SHA256(data)
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), ".proof-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if err := proof.Write(tmp, rep.Proof); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Sync(); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), path)
+	return proof.WriteFile(path, rep.Proof)
 }

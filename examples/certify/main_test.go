@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"encoding/json"
 	"math"
 	"math/big"
@@ -127,6 +128,14 @@ func TestBadInputExitTwo(t *testing.T) {
 		{write("inf.txt", []byte("1 1 2\n1 +Inf\n"))},
 		{write("short.txt", []byte("1 2 2\n1 2 3\n"))},
 		{write("shape.txt", []byte("1 0 2\n"))},
+		{"-shard", "0/2"}, // no -proof
+		{"-shard", "2/2", "-proof", filepath.Join(dir, "p")},
+		{"-shard", "-1/2", "-proof", filepath.Join(dir, "p")},
+		{"-shard", "0/0", "-proof", filepath.Join(dir, "p")},
+		{"-shard", "1/2x", "-proof", filepath.Join(dir, "p")},
+		{"-shard", "half", "-proof", filepath.Join(dir, "p")},
+		{"-shard", "0/2", "-proof", filepath.Join(dir, "p"), "-field", "complex"},
+		{"-shard", "0/2", "-proof", filepath.Join(dir, "p"), write("c.txt", []byte("1 2 2 complex\n1 1i\n0 1\n"))},
 	}
 	if _, err := os.Stat("/proc/self/mem"); err == nil {
 		cases = append(cases, []string{"/proc/self/mem"}) // opens, but reading fails (EIO)
@@ -487,5 +496,77 @@ func TestProofFlag(t *testing.T) {
 	os.WriteFile(c, []byte("1 2 2 complex\n1 1i\n0 1\n"), 0o644)
 	if code, _, errs := runCmd("-quiet", "-proof", filepath.Join(dir, "c.proof"), c); code != 1 || !strings.Contains(errs, "complex") {
 		t.Errorf("complex proof: exit %d, %s", code, errs)
+	}
+}
+
+// certify -shard i/N writes part proofs that merge into a proof of the whole
+// interval which re-checks with the input file (proof.Merge and proof.Check,
+// what recheck merge and recheck -proof run; the recheck command's own
+// round trip is in its tests); the text and JSON reports name the part; a
+// part whose budget runs out exits 3 and still writes a part proof, which
+// checks. Nothing but the proofs is left in the folder.
+func TestShardFlag(t *testing.T) {
+	dir := t.TempDir()
+	rng := rand.New(rand.NewPCG(4, 5))
+	var b strings.Builder
+	b.WriteString("9 3 6\n")
+	for i := 0; i < 9*3*6; i++ {
+		b.WriteString(strconv.FormatFloat(rng.NormFloat64(), 'g', -1, 64) + " ")
+	}
+	basis := filepath.Join(dir, "b.txt")
+	os.WriteFile(basis, []byte(b.String()), 0o644)
+	var parts []*proof.Proof
+	var names []string
+	for i := 0; i < 3; i++ {
+		name := filepath.Join(dir, "part-"+strconv.Itoa(i))
+		args := []string{"-quiet", "-shard", strconv.Itoa(i) + "/3", "-proof", name, basis}
+		if i == 2 {
+			args = append(args, "-json")
+		}
+		code, out, errs := runCmd(args...)
+		if code != 0 {
+			t.Fatalf("part %d: exit %d, %s", i, code, errs)
+		}
+		if i < 2 && !strings.Contains(out, "part       "+strconv.Itoa(i)+" of 3") {
+			t.Errorf("part %d: report %q", i, out)
+		}
+		if i == 2 {
+			var v map[string]any
+			if err := json.Unmarshal([]byte(out), &v); err != nil || v["part"] != 2.0 || v["parts"] != 3.0 || v["part_lower"] == nil {
+				t.Errorf("part 2: JSON %q (%v)", out, err)
+			}
+		}
+		p, err := proof.ReadFile(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		parts, names = append(parts, p), append(names, name)
+	}
+	whole, err := proof.Merge(context.Background(), parts, names)
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, _ := os.ReadFile(basis)
+	in, err := subspace.ParseInput(data, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := proof.Check(context.Background(), whole, &in.Real, data)
+	if err != nil || !c.HashChecked || !(c.Lower > 0) {
+		t.Errorf("merged proof: %+v, %v", c, err)
+	}
+	// A part out of time: exit 3, a valid part proof all the same.
+	late := filepath.Join(dir, "late")
+	if code, _, errs := runCmd("-quiet", "-shard", "1/3", "-proof", late, "-time", "1ns", "-gap", "1e-12", basis); code != 3 {
+		t.Errorf("part out of time: exit %d, %s", code, errs)
+	}
+	if p, err := proof.ReadFile(late); err != nil {
+		t.Errorf("part out of time: %v", err)
+	} else if _, err := proof.Check(context.Background(), p, &in.Real, data); err != nil {
+		t.Errorf("part out of time: %v", err)
+	}
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 5 {
+		t.Errorf("files left: %v", entries)
 	}
 }

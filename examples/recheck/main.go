@@ -4,9 +4,15 @@
 // how far its span is from the stored subspace.
 //
 //	go run ./examples/recheck -proof FILE [BASIS]
+//	go run ./examples/recheck merge -out WHOLE PART...
 //
-// Exit status: 0 every claim confirmed, 1 a claim fails (the line says
-// which), 2 bad flags or unreadable files, 130 interrupted.
+// The second form checks the part proofs of a sharded branch-and-bound run
+// (certify -shard i/N) and joins them into one proof of the whole interval,
+// written to WHOLE, which the first form then re-checks like any other.
+//
+// Exit status: 0 every claim confirmed (or the parts merged), 1 a claim
+// fails or the parts do not make a whole (the line says which), 2 bad flags
+// or unreadable files, 130 interrupted.
 package main
 
 import (
@@ -30,13 +36,21 @@ func main() {
 }
 
 const usage = `usage: recheck -proof FILE [BASIS]
+       recheck merge -out WHOLE PART...
 Re-verifies every claim of a proof file (certify -proof) without searching.
 With BASIS (the input file the proof is about), also checks its SHA-256 and
 proves the distance from its span to the stored basis.
-Exit status: 0 confirmed, 1 a claim fails, 2 bad input, 130 interrupted.
+merge checks the part proofs of certify -shard i/N (all N of them, each
+once, same input and stored basis, each part's claims) and writes one proof
+of the whole interval to WHOLE.
+Exit status: 0 confirmed (merged), 1 a claim fails (the parts do not make a
+whole), 2 bad input, 130 interrupted.
 Flags:`
 
 func run(args []string, stdout, stderr io.Writer) int {
+	if len(args) > 0 && args[0] == "merge" {
+		return runMerge(args[1:], stdout, stderr)
+	}
 	fs := flag.NewFlagSet("recheck", flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
 	path := fs.String("proof", "", "the proof file")
@@ -60,16 +74,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if len(rest) > 1 {
 		return bad("at most one BASIS file, got %d", len(rest))
 	}
-	f, err := os.Open(*path)
-	if err != nil {
-		return bad("%v", err)
-	}
-	defer f.Close()
-	st, err := f.Stat()
-	if err != nil || !st.Mode().IsRegular() {
-		return bad("%s: not a regular file", *path)
-	}
-	p, err := proof.Read(f, st.Size())
+	p, err := proof.ReadFile(*path)
 	if err != nil {
 		return bad("%s: %s", *path, oneLine(err))
 	}
@@ -112,6 +117,10 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return bad("%s", oneLine(err))
 	}
 	fp := p.File
+	if c.Part != nil {
+		printPart(stdout, p, c)
+		return 0
+	}
 	fmt.Fprintf(stdout, "CONFIRMED  d* in [%s, %s]   (for the stored basis of %d vectors of %d×%d%s)\n",
 		rankone.FormatLower(c.Lower, 10), rankone.FormatUpper(c.Upper, 10), fp.StoredCount, fp.Rows, fp.Cols,
 		map[bool]string{true: ", spanning W⊥", false: ""}[fp.StoresComplement])
@@ -137,4 +146,75 @@ func hashWord(checked bool) string {
 		return "SHA-256 matches"
 	}
 	return "the proof records no SHA-256 (not checked)"
+}
+
+// printPart prints what the check of a part proof confirmed.
+func printPart(stdout io.Writer, p *proof.Proof, c proof.Confirmed) {
+	pc := c.Part
+	fmt.Fprintf(stdout, "CONFIRMED  part %d of %d: d* ≥ %s unless the minimum is reached in another part; d* ≤ %s\n",
+		pc.Index, pc.Count, rankone.FormatLower(pc.Lower, 10), rankone.FormatUpper(c.Upper, 10))
+	fmt.Fprintf(stdout, "  part     %d of the %d initial cells (level %d), %d cells: they prove ≥ %s\n",
+		len(pc.InitialCells), p.Cover.Part.InitialCells(p.Cover.D), pc.Level, len(p.Cover.Cells), rankone.FormatLower(c.RecomputedPartLower, 10))
+	fmt.Fprintf(stdout, "  upper    Verify at the witness: ≤ %s\n", rankone.FormatUpper(c.RecomputedUpper, 10))
+	fmt.Fprintln(stdout, "  whole    a part proves no Lower alone: join all parts with recheck merge")
+}
+
+// runMerge is recheck merge -out WHOLE PART...: read every part, let
+// proof.Merge check that they make a whole, write the whole proof.
+func runMerge(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("recheck merge", flag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	out := fs.String("out", "", "the whole proof to write")
+	bad := func(format string, a ...any) int {
+		fmt.Fprintf(stderr, "recheck merge: "+format+"\n", a...)
+		return 2
+	}
+	files, err := cli.Parse(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(stderr, usage)
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
+			return 0
+		}
+		return bad("%v", err)
+	}
+	if *out == "" {
+		return bad("-out WHOLE is required")
+	}
+	if len(files) == 0 {
+		return bad("no part proofs given")
+	}
+	parts := make([]*proof.Proof, len(files))
+	for i, name := range files {
+		if parts[i], err = proof.ReadFile(name); err != nil {
+			return bad("%s: %s", name, oneLine(err))
+		}
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	whole, err := proof.Merge(ctx, parts, files)
+	if err != nil {
+		if ctx.Err() != nil {
+			fmt.Fprintln(stderr, "recheck merge: interrupted")
+			return 130
+		}
+		if errors.Is(err, proof.ErrParts) || errors.Is(err, proof.ErrClaim) {
+			fmt.Fprintf(stdout, "REFUSED  %s\n", oneLine(err))
+			return 1
+		}
+		return bad("%s", oneLine(err))
+	}
+	if err := proof.WriteFile(*out, whole); err != nil {
+		return bad("%s: %s", *out, oneLine(err))
+	}
+	f := whole.File
+	cells := 0
+	if whole.Cover != nil {
+		cells = len(whole.Cover.Cells)
+	}
+	fmt.Fprintf(stdout, "MERGED  %d parts: d* in [%s, %s]   (%s argument, %d cells) written to %s\n",
+		len(parts), rankone.FormatLower(f.Lower, 10), rankone.FormatUpper(f.Upper, 10), f.LowerArgument, cells, *out)
+	fmt.Fprintf(stdout, "  check it with: go run ./examples/recheck -proof %s BASIS\n", *out)
+	return 0
 }

@@ -5,10 +5,12 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
 	"github.com/segre-lab/segre"
+	"github.com/segre-lab/segre/net"
 	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
@@ -65,6 +67,99 @@ func TestRecheckCommand(t *testing.T) {
 	trunc := filepath.Join(dir, "trunc.proof")
 	os.WriteFile(trunc, data[:len(data)/2], 0o644)
 	for _, args := range [][]string{{"-proof", trunc}, {"-proof", basis}, {basis}, {"-proof", good, basis, basis}, {"-nosuch"}, {"-proof", filepath.Join(dir, "missing")}} {
+		if code, out, errs := runCmd(args...); code != 2 || out != "" || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
+			t.Errorf("%v: exit %d, stdout %q, stderr %q", args, code, out, errs)
+		}
+	}
+}
+
+// merge as a user meets it: the part proofs of a sharded run (built here as
+// certify -shard builds them: net.BranchBound with Shard, proof.Build with
+// the file's SHA-256, proof.WriteFile) merge into a proof that recheck
+// -proof confirms with the basis (exit 0); a part alone is confirmed as a
+// part; a missing or repeated part, a part of another input and a tampered
+// part are refused (exit 1, one line on stdout naming the problem); bad
+// flags and unreadable files exit 2 with one line on stderr.
+func TestMergeCommand(t *testing.T) {
+	dir := t.TempDir()
+	writeBasis := func(name string, in suite.Instance) (string, []byte) {
+		var bb bytes.Buffer
+		subspace.WriteNPY(&bb, in.Basis)
+		path := filepath.Join(dir, name)
+		os.WriteFile(path, bb.Bytes(), 0o644)
+		return path, bb.Bytes()
+	}
+	parts := func(prefix string, in suite.Instance, data []byte, n int) []string {
+		w := suite.MustNew(t, in)
+		var out []string
+		for i := 0; i < n; i++ {
+			var cv net.Cover
+			res, err := (&net.BranchBound{Gap: 1e-6, Record: &cv, Shard: net.Shard{Index: i, Count: n}}).Search(context.Background(), w)
+			if err != nil {
+				t.Fatal(err)
+			}
+			p, err := proof.Build(context.Background(), proof.Evidence{W: w, X: res.X, Y: res.Y, Cover: &cv, InputSHA256: proof.SHA256(data)})
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := filepath.Join(dir, prefix+"-"+strconv.Itoa(i))
+			if err := proof.WriteFile(name, p); err != nil {
+				t.Fatal(err)
+			}
+			out = append(out, name)
+		}
+		return out
+	}
+	basis, data := writeBasis("b.npy", suite.Random(3, 6, 9, 1))
+	_, otherData := writeBasis("o.npy", suite.Random(3, 6, 9, 2))
+	p := parts("part", suite.Random(3, 6, 9, 1), data, 3)
+	o := parts("other", suite.Random(3, 6, 9, 2), otherData, 3)
+	whole := filepath.Join(dir, "whole")
+	if code, out, errs := runCmd("merge", "-out", whole, p[0], p[1], p[2]); code != 0 || !strings.HasPrefix(out, "MERGED  3 parts") {
+		t.Fatalf("merge: exit %d\n%s%s", code, out, errs)
+	}
+	if code, out, errs := runCmd("-proof", whole, basis); code != 0 || !strings.HasPrefix(out, "CONFIRMED  d* in") || !strings.Contains(out, "SHA-256 matches") || !strings.Contains(out, "branch-and-bound argument") {
+		t.Errorf("whole: exit %d\n%s%s", code, out, errs)
+	}
+	if code, out, errs := runCmd("-proof", p[1], basis); code != 0 || !strings.HasPrefix(out, "CONFIRMED  part 1 of 3") {
+		t.Errorf("a part: exit %d\n%s%s", code, out, errs)
+	}
+	// A tampered part: its claim raised.
+	tp, err := proof.ReadFile(p[2])
+	if err != nil {
+		t.Fatal(err)
+	}
+	tp.File.Part.Lower = tp.File.Part.Lower*1.01 + 1e-3
+	tampered := filepath.Join(dir, "tampered")
+	proof.WriteFile(tampered, tp)
+	refused := filepath.Join(dir, "refused")
+	for _, tc := range []struct {
+		name  string
+		files []string
+		says  string
+	}{
+		{"missing part", []string{p[0], p[2]}, "part 1 of 3 missing"},
+		{"duplicated part", []string{p[0], p[1], p[1], p[2]}, "part 1 of 3 is given twice"},
+		{"another input", []string{p[0], o[1], p[2]}, "different inputs"},
+		{"tampered part", []string{p[0], p[1], tampered}, "as claimed"},
+		{"a whole proof", []string{p[0], whole, p[2]}, "not a part proof"},
+	} {
+		code, out, _ := runCmd(append([]string{"merge", "-out", refused}, tc.files...)...)
+		if code != 1 || !strings.HasPrefix(out, "REFUSED") || !strings.Contains(out, tc.says) || strings.Count(strings.TrimSpace(out), "\n") != 0 {
+			t.Errorf("%s: exit %d, %q", tc.name, code, out)
+		}
+	}
+	if _, err := os.Stat(refused); err == nil {
+		t.Errorf("a refused merge wrote %s", refused)
+	}
+	for _, args := range [][]string{
+		{"merge", p[0], p[1], p[2]},           // no -out
+		{"merge", "-out", whole},              // no parts
+		{"merge", "-out", whole, basis, p[1]}, // not a proof file
+		{"merge", "-out", whole, p[0], dir},   // a folder
+		{"merge", "-nosuch", "-out", whole, p[0]},
+		{"merge", "-out", filepath.Join(dir, "no", "such", "dir"), p[0], p[1], p[2]}, // cannot write
+	} {
 		if code, out, errs := runCmd(args...); code != 2 || out != "" || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
 			t.Errorf("%v: exit %d, stdout %q, stderr %q", args, code, out, errs)
 		}
