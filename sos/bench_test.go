@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"github.com/segre-lab/segre/internal/sdp"
+	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
 )
@@ -172,4 +173,38 @@ func alternate(b *testing.B, bin, path string, p sdp.Problem) (ours, theirs, rat
 	sort.Float64s(tc)
 	ours, theirs = to[len(to)/2], tc[len(tc)/2]
 	return ours, theirs, ours / theirs, math.Abs(primal-ref) / math.Abs(ref)
+}
+
+// BenchmarkFirstOrder times the first-order level-one route (FirstOrder)
+// where the interior-point method cannot go: a Gaussian subspace of
+// dimension mn/2 and the structured instances with known answers
+// (suite.Structured: d* = 1/2 for the direct sums, √3/2 for the Kronecker
+// products), at m = n = 16 and 32. It reports the certified bound on h*
+// ("h-bound"), the
+// Lower on d* ("lower"), the known d* ("optimum", NaN when unknown) and
+// the iterations. Issue 14's targets: 16×16 within 30 s, 32×32 within
+// 5 minutes. The 32×32 runs take minutes: select them with
+// -bench 'FirstOrder/.*32x32'.
+func BenchmarkFirstOrder(b *testing.B) {
+	ins := append([]suite.Instance{suite.Random(16, 16, 128, 1)}, suite.Structured(false)...)
+	for _, in := range ins {
+		w, err := subspace.New(context.Background(), in.Basis, subspace.Options{})
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(in.Name, func(b *testing.B) {
+			var keep Certificate
+			var r rankone.Result
+			for b.Loop() {
+				if r, err = (&FirstOrder{Keep: &keep}).Search(context.Background(), w); err != nil {
+					b.Fatal(err)
+				}
+			}
+			hb, _ := Verify(w, keep)
+			b.ReportMetric(hb, "h-bound")
+			b.ReportMetric(r.Lower, "lower")
+			b.ReportMetric(in.Optimum, "optimum")
+			b.ReportMetric(float64(r.Iterations), "iters")
+		})
+	}
 }
