@@ -33,6 +33,13 @@ const maxBranchBoundSide = 5
 // (measured: m·n = 64 solves in about 2 s, m·n = 100 in about 15 s).
 const maxSOSSize = 64
 
+// maxFirstOrderSize is the largest m·n for which the first-order level-one
+// route (sos.FirstOrder) joins when the interior-point one does not fit
+// (m·n > 64): one dense eigendecomposition of order m·n per iteration,
+// measured about 40 ms at m·n = 256 on this project's machine, so at
+// 16×16 a default budget buys a few hundred iterations.
+const maxFirstOrderSize = 400
+
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
 // 5×5 (626 constraints) about 1 s and at 4×4 0.25 s on this project's
@@ -45,7 +52,8 @@ const maxComplexSOSSize = 25
 // min(m, n) ≤ 5 (for a complex subspace: the phase-reduced sphere of
 // dimension 2·min(m, n) − 1 ≤ 5), and the level-one sum-of-squares
 // relaxation when m·n ≤ 64 (for a complex subspace its PPT form, when
-// m·n ≤ 25; thresholds measured, see the README).
+// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 400 (real;
+// thresholds measured, see the README).
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {
 		return opt.Members
@@ -62,8 +70,10 @@ func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	}
 	if cm, cn := w.ComplexShape(); w.Field() == subspace.Complex && cm*cn <= maxComplexSOSSize {
 		members = append(members, &sos.Bound{})
-	} else if w.Field() == subspace.Real && w.Rows()*w.Cols() <= maxSOSSize {
+	} else if L := w.Rows() * w.Cols(); w.Field() == subspace.Real && L <= maxSOSSize {
 		members = append(members, &sos.Bound{})
+	} else if w.Field() == subspace.Real && L <= maxFirstOrderSize {
+		members = append(members, &sos.FirstOrder{})
 	}
 	return members
 }
@@ -85,6 +95,10 @@ func hooked(s rankone.Searcher, fn func(rankone.Progress)) {
 			m.Progress = fn
 		}
 	case *sos.Bound:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
+	case *sos.FirstOrder:
 		if m.Progress == nil {
 			m.Progress = fn
 		}
@@ -113,6 +127,11 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 					mb.Record = cover
 				}
 			case *sos.Bound:
+				if mb.Keep == nil {
+					cert = &sos.Certificate{}
+					mb.Keep = cert
+				}
+			case *sos.FirstOrder:
 				if mb.Keep == nil {
 					cert = &sos.Certificate{}
 					mb.Keep = cert

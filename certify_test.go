@@ -48,6 +48,27 @@ func TestCertifyClosedForms(t *testing.T) {
 	}
 }
 
+// Beyond the interior-point method's reach (m·n > 64) the first-order
+// level one joins: on the 16×16 structured instances of the suite (d*
+// derived on suite.DirectSum and suite.KroneckerFull) Certify closes the
+// interval on d*, where the flattening bound alone proves nothing (Lower 0
+// before the first-order route joined).
+func TestCertifyStructured16(t *testing.T) {
+	for _, in := range suite.Structured(true) {
+		w := mustNew(t, in)
+		rep, err := Certify(context.Background(), w, Options{Budget: time.Minute})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if rep.Lower > in.Optimum+1e-9 || rep.Upper < in.Optimum-1e-9 {
+			t.Fatalf("%s: [%g, %g] excludes d* = %g", in.Name, rep.Lower, rep.Upper, in.Optimum)
+		}
+		if rep.Stop != GapReached || !strings.HasPrefix(rep.LowerBy, "sos level 1") {
+			t.Errorf("%s: stop %v, Lower %v by %q", in.Name, rep.Stop, rep.Lower, rep.LowerBy)
+		}
+	}
+}
+
 // The demo-like case of issue 12: the interval meets the gap early and
 // Certify returns at once, not at the end of its budget.
 func TestCertifyStopsAtGap(t *testing.T) {

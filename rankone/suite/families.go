@@ -354,8 +354,11 @@ func NormedAlgebraComplement(n int, seed uint64) Instance {
 		}
 		d = append(d, b...)
 	}
+	// h is constant, so every unit point is optimal; X0 = Y0 = e₁.
+	e1 := make([]float64, n)
+	e1[0] = 1
 	return Instance{Family: "normed-algebra-complement", Name: fmt.Sprintf("normed-algebra-complement/%d/s%d", n, seed),
-		Basis: subspace.Basis{Count: L - n, Rows: n, Cols: n, Data: d}, Optimum: 1 / math.Sqrt(float64(n))}
+		Basis: subspace.Basis{Count: L - n, Rows: n, Cols: n, Data: d}, Optimum: 1 / math.Sqrt(float64(n)), X0: e1, Y0: append([]float64(nil), e1...)}
 }
 
 // PlantedNoisy is Planted with the planted matrix x₀y₀ᵀ replaced by
