@@ -11,7 +11,9 @@
 //     re-check does not depend on repeating the orthonormalisation bit for
 //     bit on another machine;
 //   - certificate.npy (lower argument "sos-level-1"): the mn×mn matrix K of
-//     the level-one certificate;
+//     the level-one certificate; (lower argument "sos-level-2") the matrix
+//     K of order m·n(n+1)/2 of the level-two certificate, whose number t is
+//     proof.json's "certificate_t";
 //   - cells.npy (lower arguments "branch-and-bound" and
 //     "branch-and-bound-part"): one row per leaf cell of the branch-and-bound
 //     cover: face, guess, then the box's lower and upper corners (absent for
@@ -30,7 +32,7 @@
 // its span to the stored subspace (subspace.InputDistance), so that the
 // interval widened by θ holds for the input as given; Upper as Verify at the
 // witness; Lower from its argument (the flattening bound recomputed, the
-// certificate verified by sos.Verify, or the cover checked by
+// certificate verified by sos.Verify or sos.VerifyLevelTwo, or the cover checked by
 // net.CheckCover). Each recomputed bound must be at least as good as the
 // claim. The writer claims its own recomputation weakened by a relative
 // margin (1e-9): on another machine the same sums may round differently in
@@ -80,6 +82,7 @@ const (
 	ArgNone       = "none"
 	ArgFlattening = "flattening"
 	ArgSOS1       = "sos-level-1"
+	ArgSOS2       = "sos-level-2"
 	ArgBranch     = "branch-and-bound"
 	ArgBranchPart = "branch-and-bound-part"
 )
@@ -92,6 +95,20 @@ const Margin = 1e-9
 // refuses sides above 20; the bound keeps a hostile file from sizing
 // arrays by it).
 const maxCoverD = 64
+
+// maxLevelTwoOrder is the largest level-two certificate order Read accepts
+// (sos.VerifyLevelTwo's limit).
+const maxLevelTwoOrder = 4000
+
+// levelTwoOrder is the order m·n(n+1)/2 of a level-two certificate of an
+// m×n subspace.
+// It is −1 when the sizes are too large to matter (then refused).
+func levelTwoOrder(m, n int) int {
+	if m <= 0 || n <= 0 || m > maxLevelTwoOrder || n > maxLevelTwoOrder {
+		return -1
+	}
+	return m * n * (n + 1) / 2
+}
 
 // File is proof.json.
 type File struct {
@@ -110,7 +127,8 @@ type File struct {
 	LowerArgument    string     `json:"lower_argument"`
 	CoverD           int        `json:"cover_d,omitempty"`
 	CoverOnX         bool       `json:"cover_on_x,omitempty"`
-	Part             *PartClaim `json:"part,omitempty"` // ArgBranchPart only
+	Part             *PartClaim `json:"part,omitempty"`          // ArgBranchPart only
+	CertificateT     float64    `json:"certificate_t,omitempty"` // ArgSOS2 only
 }
 
 // PartClaim is the "part" object of a part proof (ArgBranchPart).
@@ -131,7 +149,7 @@ type PartClaim struct {
 type Proof struct {
 	File        File
 	Stored      []float64 // StoredCount × Rows × Cols
-	Certificate []float64 // (Rows·Cols)² for ArgSOS1
+	Certificate []float64 // (Rows·Cols)² for ArgSOS1, (Rows·Cols(Cols+1)/2)² for ArgSOS2
 	Cover       *net.Cover
 }
 
@@ -142,6 +160,7 @@ type Evidence struct {
 	InputSHA256 string
 	X, Y        []float64
 	Certificate *sos.Certificate
+	LevelTwo    *sos.LevelTwoCertificate
 	Cover       *net.Cover
 }
 
@@ -198,8 +217,20 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 			}
 		}
 	}
-	if arg != ArgSOS1 {
+	if ev.LevelTwo != nil {
+		if hb, err := sos.VerifyLevelTwo(rw, *ev.LevelTwo); err == nil {
+			if lo := rankone.DistanceLower(hb); lo > best {
+				best, arg = lo, ArgSOS2
+				p.Certificate = append([]float64(nil), ev.LevelTwo.K...)
+				p.File.CertificateT = ev.LevelTwo.T
+			}
+		}
+	}
+	if arg != ArgSOS1 && arg != ArgSOS2 {
 		p.Certificate = nil
+	}
+	if arg != ArgSOS2 {
+		p.File.CertificateT = 0
 	}
 	if arg != ArgBranch {
 		p.Cover = nil
@@ -313,6 +344,16 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 			return c, fmt.Errorf("%w: certificate: %v", ErrClaim, err)
 		}
 		lo = rankone.DistanceLower(hb)
+	case ArgSOS2:
+		dim := levelTwoOrder(f.Rows, f.Cols)
+		if dim <= 0 || len(p.Certificate) != dim*dim {
+			return c, fmt.Errorf("%w: level-two certificate has %d entries, want %d", ErrClaim, len(p.Certificate), dim*dim)
+		}
+		hb, err := sos.VerifyLevelTwo(w, sos.LevelTwoCertificate{M: f.Rows, N: f.Cols, T: f.CertificateT, K: p.Certificate})
+		if err != nil {
+			return c, fmt.Errorf("%w: level-two certificate: %v", ErrClaim, err)
+		}
+		lo = rankone.DistanceLower(hb)
 	case ArgBranch:
 		if p.Cover == nil {
 			return c, fmt.Errorf("%w: branch-and-bound argument without cells", ErrClaim)
@@ -380,6 +421,9 @@ func Write(wr io.Writer, p *Proof) error {
 	}
 	if p.Certificate != nil {
 		L := f.Rows * f.Cols
+		if f.LowerArgument == ArgSOS2 {
+			L = levelTwoOrder(f.Rows, f.Cols)
+		}
 		buf.Reset()
 		if err := subspace.WriteNPY(&buf, subspace.Basis{Count: 1, Rows: L, Cols: L, Data: p.Certificate}); err != nil {
 			return err
@@ -537,6 +581,14 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 	switch f.LowerArgument {
 	case ArgSOS1:
 		L := f.Rows * f.Cols
+		if p.Certificate, err = arr("certificate.npy", L, L); err != nil {
+			return nil, err
+		}
+	case ArgSOS2:
+		L := levelTwoOrder(f.Rows, f.Cols)
+		if L <= 0 || L > maxLevelTwoOrder {
+			return nil, fmt.Errorf("%w: level-two certificate of order %d (at most %d)", ErrFormat, L, maxLevelTwoOrder)
+		}
 		if p.Certificate, err = arr("certificate.npy", L, L); err != nil {
 			return nil, err
 		}

@@ -84,6 +84,43 @@ func TestRoundTrips(t *testing.T) {
 	if p.File.LowerArgument != ArgSOS1 || c.Lower > in.Optimum || c.Lower < in.Optimum*(1-1e-6) {
 		t.Errorf("sos: %s [%v, %v], d* = %v", p.File.LowerArgument, c.Lower, c.Upper, in.Optimum)
 	}
+	// Level two: on a Gaussian 3×3 subspace its bound beats the flattening
+	// bound (both proven; the test fails if the proof does not pick it).
+	in = suite.Random(3, 3, 4, 1)
+	w = suite.MustNew(t, in)
+	var cert2 sos.LevelTwoCertificate
+	r2, err := (&sos.LevelTwo{Keep: &cert2}).Search(ctx, w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	x, y = witness(t, w)
+	p, c = roundTrip(t, in, Evidence{W: w, X: x, Y: y, LevelTwo: &cert2})
+	if p.File.LowerArgument != ArgSOS2 || c.Lower > r2.Lower || c.Lower < r2.Lower*(1-1e-6) || c.Lower > c.Upper {
+		t.Errorf("sos level 2: %s [%v, %v], search Lower %v", p.File.LowerArgument, c.Lower, c.Upper, r2.Lower)
+	}
+	// Level two tampered: one number of K changed (symmetry broken), the
+	// number t lowered (the claim no longer follows), the file truncated
+	// of its certificate.
+	for name, tamper := range map[string]func(q *Proof){
+		"K entry":  func(q *Proof) { q.Certificate[1] += 1e-3 },
+		"t":        func(q *Proof) { q.File.CertificateT -= 0.05 },
+		"K sign":   func(q *Proof) { q.Certificate[0] = -q.Certificate[0] - 1 },
+		"no K":     func(q *Proof) { q.Certificate = nil },
+		"as level": func(q *Proof) { q.File.LowerArgument = ArgSOS1 },
+	} {
+		var buf bytes.Buffer
+		if err := Write(&buf, p); err != nil {
+			t.Fatal(err)
+		}
+		q, err := Read(bytes.NewReader(buf.Bytes()), int64(buf.Len()))
+		if err != nil {
+			t.Fatal(err)
+		}
+		tamper(q)
+		if _, err := Check(ctx, q, &in.Basis, inputBytes(t, in)); err == nil {
+			t.Errorf("level two, %s tampered: accepted", name)
+		}
+	}
 	// Branch-and-bound.
 	in = suite.Random(2, 6, 3, 1)
 	w = suite.MustNew(t, in)

@@ -246,6 +246,53 @@ func (e *extension) bound(t float64, k []float64, stop func() bool) float64 {
 type LevelTwo struct {
 	// MaxIter bounds the interior-point iterations; zero means 100.
 	MaxIter int
+	// Keep, if non-nil, receives the certificate whose verification gave
+	// Lower (left unchanged when none was), for proof files.
+	Keep *LevelTwoCertificate
+}
+
+// LevelTwoCertificate is the certificate of the level-two bound (see the
+// comment at the top of level2.go): the number t and the symmetric matrix
+// K of order m·n(n+1)/2 (row-major), indexed (i, pq) ↦ i·n(n+1)/2 + r with
+// r the rank of the pair p ≤ q in the order (0,0), (0,1), …, (0,n−1),
+// (1,1), … .
+type LevelTwoCertificate struct {
+	M, N int
+	T    float64
+	K    []float64
+}
+
+// maxVerifyOrder bounds the order m·n(n+1)/2 of the level-two certificates
+// VerifyLevelTwo accepts (the matrices it forms take 8·order² bytes each).
+const maxVerifyOrder = 4000
+
+// VerifyLevelTwo returns a certified upper bound on h* for the stored
+// subspace from a level-two certificate, or an error if the certificate is
+// malformed, not finite or not exactly symmetric (the derivation at the top
+// of level2.go needs K symmetric: the orbit sums are over the whole
+// matrix, the Cholesky test over its upper triangle).
+func VerifyLevelTwo(w *subspace.Subspace, c LevelTwoCertificate) (float64, error) {
+	m, n := w.Rows(), w.Cols()
+	dim := m * n * (n + 1) / 2
+	if c.M != m || c.N != n || len(c.K) != dim*dim || dim > maxVerifyOrder {
+		return 1, fmt.Errorf("%w: level-two certificate of %d×%d with %d entries for %d×%d", ErrCertificate, c.M, c.N, len(c.K), m, n)
+	}
+	if math.IsNaN(c.T) || math.IsInf(c.T, 0) {
+		return 1, fmt.Errorf("%w: t = %v", ErrCertificate, c.T)
+	}
+	for a := 0; a < dim; a++ {
+		for b := a; b < dim; b++ {
+			v := c.K[a*dim+b]
+			if math.IsNaN(v) || math.IsInf(v, 0) || v != c.K[b*dim+a] {
+				return 1, fmt.Errorf("%w: entry (%d, %d) not finite or not symmetric", ErrCertificate, a, b)
+			}
+		}
+	}
+	e, err := newExtension(w, maxVerifyOrder)
+	if err != nil {
+		return 1, err
+	}
+	return math.Min(1, e.bound(c.T, c.K, nil)), nil
 }
 
 var _ rankone.Searcher = (*LevelTwo)(nil)
@@ -294,9 +341,13 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 			}
 		}
 	}
-	hb := e.bound(float64(sol.Dual*(1+1e-12))+1e-15, k, func() bool { return ctx.Err() != nil })
+	t := float64(sol.Dual*(1+1e-12)) + 1e-15
+	hb := e.bound(t, k, func() bool { return ctx.Err() != nil })
 	if lo := rankone.DistanceLower(hb); lo > 0 {
 		res.Lower, res.LowerBy = lo, "sos level 2"
+		if l.Keep != nil {
+			*l.Keep = LevelTwoCertificate{M: m, N: n, T: t, K: k}
+		}
 	}
 	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s
 	// reshaping has top left singular vector ≈ x and right vector ≈ (y_p y_q),

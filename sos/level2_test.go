@@ -2,6 +2,7 @@ package sos
 
 import (
 	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -108,5 +109,54 @@ func TestEigenBoundTwoRoutes(t *testing.T) {
 		if g < 1-ms.Upper*ms.Upper {
 			t.Errorf("%s: bound %v below a found h %v", in.Name, g, 1-ms.Upper*ms.Upper)
 		}
+	}
+}
+
+// The kept level-two certificate re-verifies to the bound that gave Lower
+// (the same computation, derived at the top of level2.go), and malformed
+// certificates are refused.
+func TestLevelTwoCertificate(t *testing.T) {
+	in := suite.Random(3, 3, 4, 1)
+	w := mustNew(t, in)
+	var keep LevelTwoCertificate
+	r, err := (&LevelTwo{Keep: &keep}).Search(context.Background(), w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Lower == 0 {
+		t.Fatal("no Lower")
+	}
+	hb, err := VerifyLevelTwo(w, keep)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := rankone.DistanceLower(hb); got != r.Lower {
+		t.Errorf("re-verified Lower %v, search %v", got, r.Lower)
+	}
+	bad := keep
+	bad.K = append([]float64(nil), keep.K...)
+	bad.K[1] += 1e-3 // breaks the symmetry
+	if _, err := VerifyLevelTwo(w, bad); !errors.Is(err, ErrCertificate) {
+		t.Errorf("asymmetric: %v", err)
+	}
+	bad.K = keep.K[:len(keep.K)-1]
+	if _, err := VerifyLevelTwo(w, bad); !errors.Is(err, ErrCertificate) {
+		t.Errorf("short: %v", err)
+	}
+	bad = keep
+	bad.T = math.NaN()
+	if _, err := VerifyLevelTwo(w, bad); !errors.Is(err, ErrCertificate) {
+		t.Errorf("NaN t: %v", err)
+	}
+	// A smaller t is still a valid (possibly weaker) certificate: the bound
+	// never falls below the value of the best witness.
+	bad.T = keep.T - 0.1
+	hb2, err := VerifyLevelTwo(w, bad)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ms, _ := (&rankone.MultiStart{Starts: 16}).Search(context.Background(), w)
+	if hb2 < rankone.ValueLower(ms.Upper) {
+		t.Errorf("bound %v below a witness's value %v", hb2, rankone.ValueLower(ms.Upper))
 	}
 }
