@@ -36,9 +36,11 @@ const maxSOSSize = 64
 // maxFirstOrderSize is the largest m·n for which the first-order level-one
 // route (sos.FirstOrder) joins when the interior-point one does not fit
 // (m·n > 64): one dense eigendecomposition of order m·n per iteration,
-// measured about 40 ms at m·n = 256 on this project's machine, so at
-// 16×16 a default budget buys a few hundred iterations.
-const maxFirstOrderSize = 400
+// measured about 40 ms at m·n = 256 and 6 s at m·n = 1024 on this
+// project's machine (sos.BenchmarkFirstOrder: the 16×16 structured
+// instances close in 0.3 s, the 32×32 ones in about 35 s, so at 32×32 a
+// budget of a minute is needed).
+const maxFirstOrderSize = 1024
 
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
@@ -52,7 +54,7 @@ const maxComplexSOSSize = 25
 // min(m, n) ≤ 5 (for a complex subspace: the phase-reduced sphere of
 // dimension 2·min(m, n) − 1 ≤ 5), and the level-one sum-of-squares
 // relaxation when m·n ≤ 64 (for a complex subspace its PPT form, when
-// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 400 (real;
+// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 1024 (real;
 // thresholds measured, see the README).
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {

@@ -104,16 +104,24 @@ func (f *FirstOrder) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 	var hist []float64 // best at each check
 	var histIt []int   // and its iteration
 	it := 0
+	var stepTime time.Duration // the last iteration's duration
 	for ; it < maxIter && ctx.Err() == nil; it++ {
+		// An iteration cannot be interrupted (a dense eigendecomposition):
+		// do not start one that would end after the deadline.
+		if dl, ok := ctx.Deadline(); ok && time.Until(dl) < stepTime {
+			break
+		}
+		t0 := time.Now()
 		if !run.step() {
 			break
 		}
+		stepTime = time.Since(t0)
 		if it%10 == 9 {
 			run.adapt()
 		}
 		// Checks (one eigenvalue computation each, and one for the
 		// primal value) every 5 iterations for the first 50, then every 25.
-		if (it < 50 && it%5 == 4) || it%25 == 24 || it == maxIter-1 {
+		if ((it < 50 && it%5 == 4) || it%25 == 24 || it == maxIter-1) && ctx.Err() == nil {
 			est := run.estimate()
 			if est < best {
 				best, bestK = est, append(bestK[:0], run.k...)
@@ -154,8 +162,13 @@ func (f *FirstOrder) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 			}
 		}
 	}
-	if x, y, ok := round(mat.NewSymDense(L, run.rho), m, n); ok {
-		keepBetter(ctx, w, &res, x, y)
+	// Rounding costs a full decomposition of order m·n, about one
+	// iteration: skipped when the budget would not cover it (the witness
+	// then stays the trivial one; Certify's local searches give theirs).
+	if dl, ok := ctx.Deadline(); ctx.Err() == nil && (!ok || time.Until(dl) >= stepTime) {
+		if x, y, ok := round(mat.NewSymDense(L, run.rho), m, n); ok {
+			keepBetter(ctx, w, &res, x, y)
+		}
 	}
 	if it >= maxIter {
 		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
