@@ -101,7 +101,7 @@ func FuzzStrategiesComplex(f *testing.F) {
 		}
 		searchers := []rankone.Searcher{
 			rankone.Flattening{}, &rankone.ALS{}, &rankone.TrustRegion{},
-			&rankone.MultiStart{Starts: 3, Workers: 1},
+			&rankone.MultiStart{Starts: 3, Workers: 1}, &rankone.AllPoints{},
 			&net.BranchBound{Gap: 1e-2, MaxNodes: 300, Workers: 1}, &net.Exhaustive{Epsilon: 0.3, Workers: 1},
 			&sos.Bound{MaxIter: 40},
 		}

@@ -83,14 +83,14 @@ func TestNeverLiesComplex(t *testing.T) {
 		knownOK := terr == nil && th <= 1e-10
 		searchers := []rankone.Searcher{
 			rankone.Flattening{}, &rankone.ALS{}, &rankone.TrustRegion{},
-			&rankone.MultiStart{Starts: 4, Seed: uint64(i)},
+			&rankone.MultiStart{Starts: 4, Seed: uint64(i)}, &rankone.AllPoints{},
 			&net.BranchBound{Gap: 1e-3, MaxNodes: 3000},
 		}
 		if net.SideDimension(w) <= 3 {
 			searchers = append(searchers, &net.Exhaustive{Epsilon: 0.2})
 		}
-		if w.Rows()*w.Cols() <= 36 && i%3 == 0 {
-			searchers = append(searchers, &sos.Bound{})
+		if cm, cn := w.ComplexShape(); cm*cn <= 16 && i%3 == 0 {
+			searchers = append(searchers, &sos.Bound{}) // the complex PPT relaxation
 		}
 		bs := complexIntervals(ctx, w, searchers)
 		if msg := inconsistent(bs); msg != "" {
