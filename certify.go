@@ -120,6 +120,7 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	members := Plan(w, opt)
 	var cover *net.Cover
 	var cert *sos.Certificate
+	var zcert *sos.ComplexCertificate
 	if opt.Proof {
 		for _, s := range members {
 			switch mb := s.(type) {
@@ -132,6 +133,10 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 				if mb.Keep == nil {
 					cert = &sos.Certificate{}
 					mb.Keep = cert
+				}
+				if mb.KeepComplex == nil {
+					zcert = &sos.ComplexCertificate{}
+					mb.KeepComplex = zcert
 				}
 			case *sos.FirstOrder:
 				if mb.Keep == nil {
@@ -209,6 +214,9 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		ev := proof.Evidence{W: w, InputSHA256: opt.inputHash, X: rep.X, Y: rep.Y, Cover: cover}
 		if cert != nil && cert.K != nil {
 			ev.Certificate = cert
+		}
+		if zcert != nil && zcert.Z != nil {
+			ev.ComplexCertificate = zcert
 		}
 		rep.Proof, rep.ProofError = proof.Build(ctx, ev)
 	}

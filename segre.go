@@ -58,7 +58,8 @@ type Options struct {
 	Complex bool
 	// Proof makes Certify keep the evidence (the level-one certificate,
 	// branch-and-bound's cover) and return a re-checkable proof of the
-	// interval in Report.Proof (package proof; real subspaces only).
+	// interval in Report.Proof (package proof; for a complex subspace the
+	// claims are about the complex distance).
 	Proof bool
 	// Progress, if set, is called with the phase, the merged certified
 	// interval and the latest member report, at most every 200 ms while the

@@ -60,6 +60,9 @@ func Merge(ctx context.Context, parts []*Proof, names []string) (*Proof, error) 
 		if f.LowerArgument != ArgBranchPart || f.Part == nil || p.Cover == nil {
 			return nil, fmt.Errorf("%w: %s is not a part proof (its argument is %q)", ErrParts, name(i), f.LowerArgument)
 		}
+		if f.Field != "real" {
+			return nil, fmt.Errorf("%w: %s is a %q part: sharded proofs are real only", ErrParts, name(i), f.Field)
+		}
 		if i == 0 {
 			continue
 		}

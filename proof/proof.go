@@ -14,6 +14,8 @@
 //     the level-one certificate; (lower argument "sos-level-2") the matrix
 //     K of order m·n(n+1)/2 of the level-two certificate, whose number t is
 //     proof.json's "certificate_t";
+//   - certificate.npy (lower argument "sos-level-1-complex"): the complex
+//     Hermitian mn×mn matrix Z of the PPT certificate (complex128);
 //   - cells.npy (lower arguments "branch-and-bound" and
 //     "branch-and-bound-part"): one row per leaf cell of the branch-and-bound
 //     cover: face, guess, then the box's lower and upper corners (absent for
@@ -83,8 +85,12 @@ const (
 	ArgFlattening = "flattening"
 	ArgSOS1       = "sos-level-1"
 	ArgSOS2       = "sos-level-2"
-	ArgBranch     = "branch-and-bound"
-	ArgBranchPart = "branch-and-bound-part"
+	// ArgSOS1Complex is the complex level one (PPT relaxation): the
+	// Hermitian certificate Z of sos.VerifyComplex in certificate.npy
+	// (complex128, mn×mn).
+	ArgSOS1Complex = "sos-level-1-complex"
+	ArgBranch      = "branch-and-bound"
+	ArgBranchPart  = "branch-and-bound-part"
 )
 
 // Margin is the relative amount by which a writer weakens its claims (see
@@ -150,7 +156,10 @@ type Proof struct {
 	File        File
 	Stored      []float64 // StoredCount × Rows × Cols
 	Certificate []float64 // (Rows·Cols)² for ArgSOS1, (Rows·Cols(Cols+1)/2)² for ArgSOS2
-	Cover       *net.Cover
+	// ComplexCertificate is the Hermitian Z of ArgSOS1Complex ((mn)² for
+	// the complex shape m = Rows/2, n = Cols/2).
+	ComplexCertificate []complex128
+	Cover              *net.Cover
 }
 
 // Evidence is what a writer has: the subspace, the witness, and the
@@ -162,37 +171,49 @@ type Evidence struct {
 	Certificate *sos.Certificate
 	LevelTwo    *sos.LevelTwoCertificate
 	Cover       *net.Cover
+	// ComplexCertificate is the PPT certificate of a complex subspace
+	// (sos.Bound.KeepComplex).
+	ComplexCertificate *sos.ComplexCertificate
 }
 
 // Build makes a proof from the evidence: it recomputes every bound as Check
 // will (so it claims nothing it has not re-proved), keeps the argument with
-// the best Lower, and weakens both claims by Margin. It refuses complex
-// subspaces (not yet supported) with an error.
+// the best Lower, and weakens both claims by Margin.
+//
+// For a complex subspace (field "complex") the stored basis is W” (2m×2n
+// real matrices of the form [[a, b], [b, −a]], see subspace.NewComplex),
+// the witness is in real coordinates, and the claims are about the complex
+// distance: Upper from the complex residual (rankone.VerifyComplex),
+// Lower from the PPT certificate directly, or from a bound on the
+// realified d” (flattening, branch-and-bound, level two of W”) through
+// d² = 2d”² − 1 (rankone.ComplexLower). Sharded proofs are real only.
 func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	w := ev.W
-	if w.Field() == subspace.Complex {
-		return nil, fmt.Errorf("proof: proofs of complex subspaces are not supported yet")
+	cplx := w.Field() == subspace.Complex
+	if cplx && ev.Cover != nil && ev.Cover.Part.Count > 0 {
+		return nil, fmt.Errorf("proof: sharded proofs of complex subspaces are not supported")
 	}
 	st := w.Stored()
 	stored := make([]float64, 0, st.Count()*w.Rows()*w.Cols())
 	for t := 0; t < st.Count(); t++ {
 		stored = append(stored, st.Vector(t, nil)...)
 	}
-	p := &Proof{File: File{Format: "segre-proof", Version: 1, InputSHA256: ev.InputSHA256, Field: "real",
+	p := &Proof{File: File{Format: "segre-proof", Version: 1, InputSHA256: ev.InputSHA256, Field: fieldName(cplx),
 		Rows: w.Rows(), Cols: w.Cols(), StoredCount: st.Count(), StoresComplement: st.Complement(),
 		X: append([]float64(nil), ev.X...), Y: append([]float64(nil), ev.Y...), LowerArgument: ArgNone},
 		Stored: stored}
 	// Recompute on the subspace rebuilt from the stored floats, as a reader will.
-	rw, err := subspace.FromStored(ctx, stored, st.Count(), w.Rows(), w.Cols(), st.Complement(), subspace.Options{MaxBytes: w.MemoryLimit()})
+	rw, err := rebuild(ctx, p.File, stored, w.MemoryLimit())
 	if err != nil {
 		return nil, err
 	}
-	up, err := rankone.Verify(rw, p.File.X, p.File.Y)
+	up, err := upperAt(rw, p.File.X, p.File.Y)
 	if err != nil {
 		return nil, err
 	}
 	p.File.Upper = math.Min(1, accurate.Up(up*(1+Margin)))
 	flatH, flatLo := rankone.FlatteningBound(ctx, rw) // also Λ₀ of the cover check
+	flatLo = inField(rw, flatLo)
 	if ev.Cover != nil && ev.Cover.Part.Count > 0 {
 		return buildPart(ctx, p, rw, ev.Cover, flatH)
 	}
@@ -200,7 +221,7 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	if flatLo > best {
 		best, arg = flatLo, ArgFlattening
 	}
-	if ev.Certificate != nil {
+	if ev.Certificate != nil && !cplx {
 		if hb, err := sos.Verify(rw, *ev.Certificate); err == nil {
 			if lo := rankone.DistanceLower(hb); lo > best {
 				best, arg = lo, ArgSOS1
@@ -208,9 +229,17 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 			}
 		}
 	}
+	if ev.ComplexCertificate != nil && cplx {
+		if hb, err := sos.VerifyComplex(rw, *ev.ComplexCertificate); err == nil {
+			if lo := rankone.DistanceLower(hb); lo > best {
+				best, arg = lo, ArgSOS1Complex
+				p.ComplexCertificate = append([]complex128(nil), ev.ComplexCertificate.Z...)
+			}
+		}
+	}
 	if ev.Cover != nil && len(ev.Cover.Cells) > 0 {
 		if hu, err := net.CheckCover(ctx, rw, ev.Cover, math.Min(1, flatH)); err == nil {
-			if lo := rankone.DistanceLower(hu); lo > best {
+			if lo := inField(rw, rankone.DistanceLower(hu)); lo > best {
 				best, arg = lo, ArgBranch
 				p.Cover = ev.Cover
 				p.File.CoverD, p.File.CoverOnX = ev.Cover.D, ev.Cover.OnX
@@ -219,7 +248,7 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	}
 	if ev.LevelTwo != nil {
 		if hb, err := sos.VerifyLevelTwo(rw, *ev.LevelTwo); err == nil {
-			if lo := rankone.DistanceLower(hb); lo > best {
+			if lo := inField(rw, rankone.DistanceLower(hb)); lo > best {
 				best, arg = lo, ArgSOS2
 				p.Certificate = append([]float64(nil), ev.LevelTwo.K...)
 				p.File.CertificateT = ev.LevelTwo.T
@@ -232,6 +261,9 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 	if arg != ArgSOS2 {
 		p.File.CertificateT = 0
 	}
+	if arg != ArgSOS1Complex {
+		p.ComplexCertificate = nil
+	}
 	if arg != ArgBranch {
 		p.Cover = nil
 		p.File.CoverD, p.File.CoverOnX = 0, false
@@ -242,6 +274,50 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 		return nil, ctx.Err()
 	}
 	return p, nil
+}
+
+// fieldName is File.Field for a subspace's field.
+func fieldName(cplx bool) string {
+	if cplx {
+		return "complex"
+	}
+	return "real"
+}
+
+// rebuild makes the subspace a proof is about from its stored floats:
+// subspace.FromStored, or FromStoredComplex (which checks the W” form)
+// for field "complex", with the complex shape Rows/2 × Cols/2.
+func rebuild(ctx context.Context, f File, stored []float64, limit int64) (*subspace.Subspace, error) {
+	opt := subspace.Options{MaxBytes: limit}
+	switch f.Field {
+	case "real":
+		return subspace.FromStored(ctx, stored, f.StoredCount, f.Rows, f.Cols, f.StoresComplement, opt)
+	case "complex":
+		if f.StoresComplement || f.Rows%2 != 0 || f.Cols%2 != 0 {
+			return nil, fmt.Errorf("%w: a complex proof stores W'' of even shape, not %d×%d (complement %v)", ErrFormat, f.Rows, f.Cols, f.StoresComplement)
+		}
+		return subspace.FromStoredComplex(ctx, stored, f.StoredCount, f.Rows/2, f.Cols/2, opt)
+	}
+	return nil, fmt.Errorf("%w: field %q", ErrFormat, f.Field)
+}
+
+// upperAt is the certified Upper of a witness: Verify, or for a complex
+// subspace the complex distance (VerifyComplex).
+func upperAt(w *subspace.Subspace, x, y []float64) (float64, error) {
+	if w.Field() == subspace.Complex {
+		return rankone.VerifyComplex(w, x, y)
+	}
+	return rankone.Verify(w, x, y)
+}
+
+// inField turns a Lower on the stored subspace's d (d” of W” for a
+// complex one) into a Lower on the claim's distance (the complex d, by
+// rankone.ComplexLower).
+func inField(w *subspace.Subspace, lo float64) float64 {
+	if w.Field() == subspace.Complex {
+		return rankone.ComplexLower(lo)
+	}
+	return lo
 }
 
 // buildPart finishes a part proof: the part's level recomputed by
@@ -290,16 +366,57 @@ type Confirmed struct {
 // SHA-256; nil to skip the hash when the proof has none). A failed claim is
 // an error wrapping ErrClaim naming it.
 func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []byte) (Confirmed, error) {
+	if input == nil {
+		return CheckInput(ctx, p, nil, inputBytes)
+	}
+	return CheckInput(ctx, p, &subspace.Input{Field: subspace.Real, Real: *input}, inputBytes)
+}
+
+// CheckInput is Check with the input as read by subspace.ReadInput or
+// ParseInput: real or complex. A complex proof accepts complex data, or
+// real data (treated over C); a real proof needs real data.
+func CheckInput(ctx context.Context, p *Proof, in *subspace.Input, inputBytes []byte) (Confirmed, error) {
 	f := p.File
 	var c Confirmed
-	if f.Format != "segre-proof" || f.Version != 1 || f.Field != "real" {
+	if f.Format != "segre-proof" || f.Version != 1 || (f.Field != "real" && f.Field != "complex") {
 		return c, fmt.Errorf("%w: format %q version %d field %q", ErrFormat, f.Format, f.Version, f.Field)
 	}
-	w, err := subspace.FromStored(ctx, p.Stored, f.StoredCount, f.Rows, f.Cols, f.StoresComplement, subspace.Options{})
+	cplx := f.Field == "complex"
+	w, err := rebuild(ctx, f, p.Stored, 0)
 	if err != nil {
 		return c, fmt.Errorf("%w: stored basis: %v", ErrClaim, err)
 	}
 	c.OrthogonalityBound = w.OrthogonalityBound()
+	var input *subspace.Basis
+	if in != nil && !cplx {
+		if in.Field != subspace.Real {
+			return c, fmt.Errorf("%w: complex data for a proof about a real subspace", ErrInput)
+		}
+		input = &in.Real
+	}
+	if in != nil && cplx {
+		if inputBytes != nil && f.InputSHA256 != "" {
+			sum := sha256.Sum256(inputBytes)
+			if got := hex.EncodeToString(sum[:]); got != f.InputSHA256 {
+				return c, fmt.Errorf("%w: the input's SHA-256 is %s, the proof is about %s", ErrClaim, got, f.InputSHA256)
+			}
+			c.HashChecked = true
+		}
+		cb := in.AsComplex()
+		if cb.Rows != f.Rows/2 || cb.Cols != f.Cols/2 {
+			return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d complex ones", ErrInput, cb.Rows, cb.Cols, f.Rows/2, f.Cols/2)
+		}
+		c.InputChecked = true
+		th, err := subspace.ComplexInputDistance(ctx, cb, w)
+		switch {
+		case err == nil:
+			c.InputDistance = th
+		case errors.Is(err, subspace.ErrDependent) || errors.Is(err, subspace.ErrUnproven) || errors.Is(err, subspace.ErrTooLarge):
+			c.InputNote = err.Error()
+		default:
+			return c, fmt.Errorf("%w: %v", ErrInput, err)
+		}
+	}
 	if input != nil {
 		if f.InputSHA256 != "" && inputBytes != nil {
 			sum := sha256.Sum256(inputBytes)
@@ -322,7 +439,7 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 			return c, fmt.Errorf("%w: %v", ErrInput, err)
 		}
 	}
-	up, err := rankone.Verify(w, f.X, f.Y)
+	up, err := upperAt(w, f.X, f.Y)
 	if err != nil {
 		return c, fmt.Errorf("%w: witness: %v", ErrClaim, err)
 	}
@@ -334,7 +451,21 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 	case ArgNone:
 	case ArgFlattening:
 		_, lo = rankone.FlatteningBound(ctx, w)
+		lo = inField(w, lo)
+	case ArgSOS1Complex:
+		if !cplx {
+			return c, fmt.Errorf("%w: a complex certificate in a real proof", ErrFormat)
+		}
+		m, n := f.Rows/2, f.Cols/2
+		hb, err := sos.VerifyComplex(w, sos.ComplexCertificate{M: m, N: n, Z: p.ComplexCertificate})
+		if err != nil {
+			return c, fmt.Errorf("%w: certificate: %v", ErrClaim, err)
+		}
+		lo = rankone.DistanceLower(hb)
 	case ArgSOS1:
+		if cplx {
+			return c, fmt.Errorf("%w: a real level-one certificate in a complex proof", ErrFormat)
+		}
 		L := f.Rows * f.Cols
 		if len(p.Certificate) != L*L {
 			return c, fmt.Errorf("%w: certificate has %d entries, want %d", ErrClaim, len(p.Certificate), L*L)
@@ -353,7 +484,7 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 		if err != nil {
 			return c, fmt.Errorf("%w: level-two certificate: %v", ErrClaim, err)
 		}
-		lo = rankone.DistanceLower(hb)
+		lo = inField(w, rankone.DistanceLower(hb))
 	case ArgBranch:
 		if p.Cover == nil {
 			return c, fmt.Errorf("%w: branch-and-bound argument without cells", ErrClaim)
@@ -363,8 +494,11 @@ func Check(ctx context.Context, p *Proof, input *subspace.Basis, inputBytes []by
 		if err != nil {
 			return c, fmt.Errorf("%w: cover: %v", ErrClaim, err)
 		}
-		lo = rankone.DistanceLower(hu)
+		lo = inField(w, rankone.DistanceLower(hu))
 	case ArgBranchPart:
+		if cplx {
+			return c, fmt.Errorf("%w: sharded proofs are real only", ErrFormat)
+		}
 		if p.Cover == nil || f.Part == nil {
 			return c, fmt.Errorf("%w: part argument without its part or cells", ErrClaim)
 		}
@@ -426,6 +560,16 @@ func Write(wr io.Writer, p *Proof) error {
 		}
 		buf.Reset()
 		if err := subspace.WriteNPY(&buf, subspace.Basis{Count: 1, Rows: L, Cols: L, Data: p.Certificate}); err != nil {
+			return err
+		}
+		if err := member(z, "certificate.npy", buf.Bytes()); err != nil {
+			return err
+		}
+	}
+	if p.ComplexCertificate != nil {
+		L := (f.Rows / 2) * (f.Cols / 2)
+		buf.Reset()
+		if err := subspace.WriteComplexNPY(&buf, subspace.ComplexBasis{Count: 1, Rows: L, Cols: L, Data: p.ComplexCertificate}); err != nil {
 			return err
 		}
 		if err := member(z, "certificate.npy", buf.Bytes()); err != nil {
@@ -584,6 +728,26 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 		if p.Certificate, err = arr("certificate.npy", L, L); err != nil {
 			return nil, err
 		}
+	case ArgSOS1Complex:
+		if f.Field != "complex" || f.Rows%2 != 0 || f.Cols%2 != 0 || f.Rows > 1<<20 || f.Cols > 1<<20 {
+			return nil, fmt.Errorf("%w: a complex certificate in a %s proof of %d×%d", ErrFormat, f.Field, f.Rows, f.Cols)
+		}
+		L := (f.Rows / 2) * (f.Cols / 2)
+		b, ok, err := get("certificate.npy")
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			return nil, fmt.Errorf("%w: missing certificate.npy", ErrFormat)
+		}
+		in, err := subspace.ParseInput(b, 0)
+		if err != nil {
+			return nil, fmt.Errorf("%w: certificate.npy: %v", ErrFormat, err)
+		}
+		if in.Field != subspace.Complex || in.Complex.Count != 1 || in.Complex.Rows != L || in.Complex.Cols != L {
+			return nil, fmt.Errorf("%w: certificate.npy is not one complex %d×%d matrix", ErrFormat, L, L)
+		}
+		p.ComplexCertificate = in.Complex.Data
 	case ArgSOS2:
 		L := levelTwoOrder(f.Rows, f.Cols)
 		if L <= 0 || L > maxLevelTwoOrder {

@@ -2,6 +2,7 @@ package subspace
 
 import (
 	"context"
+	"errors"
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
@@ -140,4 +141,38 @@ func TestComplexSpanPanicsOnReal(t *testing.T) {
 		}
 	}()
 	w.ComplexSpan()
+}
+
+// FromStoredComplex rebuilds the complex subspace from its stored W”
+// rows: the same field, shape and certified complex residual (bit for bit,
+// the same floats), and a row not of the form [[a, b], [b, −a]] is refused
+// (derived on NewComplex: the complex reading rests on that form).
+func TestFromStoredComplex(t *testing.T) {
+	ctx := context.Background()
+	cb := ComplexBasis{Count: 2, Rows: 2, Cols: 3, Data: []complex128{1, 2i, 0, 1 - 1i, 3, 0.5, 0, 1, 1i, 2, -1, 1 + 1i}}
+	w, err := NewComplex(ctx, cb, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st := w.Stored()
+	var vecs []float64
+	for i := 0; i < st.Count(); i++ {
+		vecs = append(vecs, st.Vector(i, nil)...)
+	}
+	r, err := FromStoredComplex(ctx, vecs, st.Count(), 2, 3, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Field() != Complex || r.ComplexDim() != w.ComplexDim() || r.Rows() != 4 || r.Cols() != 6 {
+		t.Fatalf("rebuilt: field %v, dim %d, %d×%d", r.Field(), r.ComplexDim(), r.Rows(), r.Cols())
+	}
+	x, y := []float64{0.6, 0.1, -0.2, 0.3}, []float64{0.5, -0.5, 0.1, 0.2, 0.3, -0.1}
+	if a, b := w.ComplexResidualBound(x, y), r.ComplexResidualBound(x, y); a != b {
+		t.Errorf("complex residual %v rebuilt, %v original", b, a)
+	}
+	bad := append([]float64(nil), vecs...)
+	bad[2*6+1] += 1e-3 // row m+0, column 1 of the first vector: breaks b = b
+	if _, err := FromStoredComplex(ctx, bad, st.Count(), 2, 3, Options{}); !errors.Is(err, ErrShape) {
+		t.Errorf("broken form: %v", err)
+	}
 }

@@ -55,3 +55,39 @@ func FromStored(ctx context.Context, vectors []float64, s, m, n int, complement 
 	}
 	return w, nil
 }
+
+// FromStoredComplex is FromStored for a complex subspace (see NewComplex):
+// vectors are the s stored rows of W” (2m×2n real matrices, as Stored
+// gives them for a complex Subspace), each of the exact form
+// [[a, b], [b, −a]] (rows: real then imaginary parts of x; columns: of y),
+// which it checks bit for bit: W” = NᵀW̃_R with W̃_R spanned by the rows
+// (a, b), so h = 2h” and the complex residual hold for this subspace as
+// for the one NewComplex built (derived in NewComplex). It returns the
+// errors of FromStored, and ErrShape naming the first entry that breaks
+// the form.
+func FromStoredComplex(ctx context.Context, vectors []float64, s, m, n int, opt Options) (*Subspace, error) {
+	if m <= 0 || n <= 0 || s < 0 || m > math.MaxInt32 || n > math.MaxInt32 {
+		return nil, fmt.Errorf("%w: %d stored vectors of %d×%d complex", ErrShape, s, m, n)
+	}
+	w, err := FromStored(ctx, vectors, s, 2*m, 2*n, false, opt)
+	if err != nil {
+		return nil, err
+	}
+	L := m * n
+	qr := make([]float64, s*2*L)
+	for t := 0; t < s; t++ {
+		src, out := w.q[t*4*L:(t+1)*4*L], qr[t*2*L:(t+1)*2*L]
+		for i := 0; i < m; i++ {
+			for j := 0; j < n; j++ {
+				a, b := src[i*2*n+j], src[i*2*n+n+j]
+				if src[(m+i)*2*n+j] != b || src[(m+i)*2*n+n+j] != -a {
+					return nil, fmt.Errorf("%w: stored vector %d is not of the form [[a, b], [b, −a]] at (%d, %d)", ErrShape, t, i, j)
+				}
+				out[i*n+j], out[L+i*n+j] = a, b
+			}
+		}
+	}
+	w.cx = &complexPart{m: m, n: n, s: s, q: qr}
+	w.k = s
+	return w, nil
+}

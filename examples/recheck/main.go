@@ -78,7 +78,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return bad("%s: %s", *path, oneLine(err))
 	}
-	var input *subspace.Basis
+	var input *subspace.Input
 	var inputBytes []byte
 	if len(rest) == 1 {
 		// Read the bytes once: hash them and parse the same bytes.
@@ -89,19 +89,22 @@ func run(args []string, stdout, stderr io.Writer) int {
 		if err != nil {
 			return bad("%s: %s", rest[0], oneLine(err))
 		}
-		if in.Field != subspace.Real {
-			return bad("%s: complex data: proofs of complex subspaces are not supported yet", rest[0])
-		}
-		b := in.Real
 		// A file of state vectors (certify -dims m,n): one r×(m·n) array.
-		if b.Count == 1 && b.Cols == p.File.Rows*p.File.Cols && b.Cols != p.File.Cols {
-			b.Count, b.Rows, b.Cols = b.Rows, p.File.Rows, p.File.Cols
+		m, n := p.File.Rows, p.File.Cols
+		if p.File.Field == "complex" {
+			m, n = m/2, n/2
 		}
-		input = &b
+		if b := &in.Real; in.Field == subspace.Real && b.Count == 1 && b.Cols == m*n && b.Cols != n {
+			b.Count, b.Rows, b.Cols = b.Rows, m, n
+		}
+		if b := &in.Complex; in.Field == subspace.Complex && b.Count == 1 && b.Cols == m*n && b.Cols != n {
+			b.Count, b.Rows, b.Cols = b.Rows, m, n
+		}
+		input = &in
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
-	c, err := proof.Check(ctx, p, input, inputBytes)
+	c, err := proof.CheckInput(ctx, p, input, inputBytes)
 	if err != nil {
 		if ctx.Err() != nil {
 			fmt.Fprintln(stderr, "recheck: interrupted")
@@ -121,9 +124,14 @@ func run(args []string, stdout, stderr io.Writer) int {
 		printPart(stdout, p, c)
 		return 0
 	}
-	fmt.Fprintf(stdout, "CONFIRMED  d* in [%s, %s]   (for the stored basis of %d vectors of %d×%d%s)\n",
-		rankone.FormatLower(c.Lower, 10), rankone.FormatUpper(c.Upper, 10), fp.StoredCount, fp.Rows, fp.Cols,
-		map[bool]string{true: ", spanning W⊥", false: ""}[fp.StoresComplement])
+	if fp.Field == "complex" {
+		fmt.Fprintf(stdout, "CONFIRMED  d* over C in [%s, %s]   (for the stored basis: %d real vectors of %d×%d spanning the realified subspace of %d×%d complex matrices)\n",
+			rankone.FormatLower(c.Lower, 10), rankone.FormatUpper(c.Upper, 10), fp.StoredCount, fp.Rows, fp.Cols, fp.Rows/2, fp.Cols/2)
+	} else {
+		fmt.Fprintf(stdout, "CONFIRMED  d* in [%s, %s]   (for the stored basis of %d vectors of %d×%d%s)\n",
+			rankone.FormatLower(c.Lower, 10), rankone.FormatUpper(c.Upper, 10), fp.StoredCount, fp.Rows, fp.Cols,
+			map[bool]string{true: ", spanning W⊥", false: ""}[fp.StoresComplement])
+	}
 	fmt.Fprintf(stdout, "  upper    Verify at the witness: ≤ %s\n", rankone.FormatUpper(c.RecomputedUpper, 10))
 	fmt.Fprintf(stdout, "  lower    %s argument: ≥ %s\n", c.Argument, rankone.FormatLower(c.RecomputedLower, 10))
 	fmt.Fprintf(stdout, "  basis    proven orthogonality defect %s\n", rankone.FormatUpper(c.OrthogonalityBound, 3))

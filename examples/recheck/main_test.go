@@ -165,3 +165,31 @@ func TestMergeCommand(t *testing.T) {
 		}
 	}
 }
+
+// A complex subspace's proof (written by segre.CertifyFile on a complex
+// text file) is confirmed with its complex basis, over C; another complex
+// basis is refused.
+func TestRecheckComplex(t *testing.T) {
+	dir := t.TempDir()
+	basis := filepath.Join(dir, "c.txt")
+	os.WriteFile(basis, []byte("2 2 3 complex\n1 2i 0\n1-1i 3 0.5\n0 1 1i\n2 -1 1+1i\n"), 0o644)
+	_, rep, err := segre.CertifyFile(context.Background(), basis, segre.Options{Proof: true})
+	if err != nil || rep.Proof == nil {
+		t.Fatalf("certify: %v %v", err, rep.ProofError)
+	}
+	var buf bytes.Buffer
+	if err := proof.Write(&buf, rep.Proof); err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(dir, "c.proof")
+	os.WriteFile(path, buf.Bytes(), 0o644)
+	code, out, errs := runCmd("-proof", path, basis)
+	if code != 0 || !strings.HasPrefix(out, "CONFIRMED  d* over C") || !strings.Contains(out, "SHA-256 matches") {
+		t.Errorf("complex proof: exit %d\n%s%s", code, out, errs)
+	}
+	other := filepath.Join(dir, "o.txt")
+	os.WriteFile(other, []byte("2 2 3 complex\n1 2i 0\n1-1i 3 0.5\n0 1 1i\n2 -1 1+2i\n"), 0o644)
+	if code, out, _ := runCmd("-proof", path, other); code != 1 || !strings.HasPrefix(out, "REFUSED") {
+		t.Errorf("another complex basis: exit %d\n%s", code, out)
+	}
+}
