@@ -14,22 +14,26 @@ type oracle = Counter
 
 func (o *oracle) G(dst *mat.SymDense, y []float64) { o.evals++; o.w.G(dst, y) }
 func (o *oracle) H(dst *mat.SymDense, x []float64) { o.evals++; o.w.H(dst, x) }
+
+// The operators a search uses are the subspace's search operators: W”'s
+// own for a real subspace, built from the complex basis (half the data)
+// for a complex one; strategies never certify with them.
 func (o *oracle) GOperator(y []float64) *subspace.Operator {
 	o.evals++
-	return o.w.GOperator(y)
+	return o.w.SearchGOperator(y)
 }
 func (o *oracle) HOperator(x []float64) *subspace.Operator {
 	o.evals++
-	return o.w.HOperator(x)
+	return o.w.SearchHOperator(x)
 }
-func (o *oracle) ApplyG(dst, y, x []float64)      { o.evals++; o.w.ApplyG(dst, y, x) }
-func (o *oracle) ApplyH(dst, x, y []float64)      { o.evals++; o.w.ApplyH(dst, x, y) }
-func (o *oracle) Project(dst, a []float64)        { o.evals++; o.w.Project(dst, a) }
+func (o *oracle) ApplyG(dst, y, x []float64)      { o.evals++; o.w.SearchGOperator(y).Apply(dst, x) }
+func (o *oracle) ApplyH(dst, x, y []float64)      { o.evals++; o.w.SearchHOperator(x).Apply(dst, y) }
+func (o *oracle) Project(dst, a []float64)        { o.evals++; o.w.SearchProject(dst, a) }
 func (o *oracle) Residual(x, y []float64) float64 { o.evals++; return o.w.Residual(x, y) }
 func (o *oracle) Value(x, y []float64) float64    { o.evals++; return o.w.Value(x, y) }
 func (o *oracle) Gradient(gx, gy, x, y, buf []float64) float64 {
 	o.evals++
 	return o.w.Gradient(gx, gy, x, y, buf)
 }
-func (o *oracle) ApplyPartialTrace1(dst, x []float64) { o.evals++; o.w.ApplyPartialTrace1(dst, x) }
-func (o *oracle) ApplyPartialTrace2(dst, y []float64) { o.evals++; o.w.ApplyPartialTrace2(dst, y) }
+func (o *oracle) ApplyPartialTrace1(dst, x []float64) { o.evals++; o.w.SearchPartialTrace1(dst, x) }
+func (o *oracle) ApplyPartialTrace2(dst, y []float64) { o.evals++; o.w.SearchPartialTrace2(dst, y) }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/cmplx"
+	"sync"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -80,6 +81,8 @@ type complexPart struct {
 	m, n int       // the complex shape
 	s    int       // stored rows of W_R
 	q    []float64 // s×(2mn): rows (a′, b′) spanning W_R exactly (see NewComplex)
+	once sync.Once
+	cops *complexOps // the complex basis of the search operators (complexops.go), built once
 }
 
 // Field reports whether w is a subspace of real or of complex matrices.
