@@ -134,13 +134,13 @@ func (p *trPoint) eval(o *oracle) {
 }
 
 // complexCost is the cost of a complex subspace's point in a form without
-// cancellation (derived here). On W'' the residual R = X⊗Y − M has
-// ‖R‖² = d''² = (1 + d²)/2, in which d² below 1e-16 is lost. But
+// cancellation (derived here). On W” the residual R = X⊗Y − M has
+// ‖R‖² = d”² = (1 + d²)/2, in which d² below 1e-16 is lost. But
 // X⊗Y = NᵀN(X⊗Y) + (I − NᵀN)(X⊗Y) and M = NᵀPN(X⊗Y) (P the projector of
 // W_R, N the co-isometry of package subspace), so
 // NR = (I − P)N(X⊗Y) and ‖NR‖² = d²/2, with NR = (R_rr − R_ii,
 // R_ri + R_ir)/√2 on the four m×n blocks of R. It returns d²/2 =
-// d''² − 1/2: the cost of the real problem on W'' less a constant, so the
+// d”² − 1/2: the cost of the real problem on W” less a constant, so the
 // trust region's ratios of decreases are unchanged and its test of
 // relative progress sees d² itself. x, y have lengths 2m, 2n.
 func complexCost(x, y, mat []float64) float64 {
