@@ -5,6 +5,8 @@ import (
 	"math"
 	"strings"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -136,6 +138,75 @@ func Structured(short bool) []Instance {
 		out = append(out,
 			named(Rotated(DirectSum(nac(1), nac(2), hr(3), nac(4), hr(5), nac(6), hr(7), nac(8)), 9), "direct-sum/32x32/nac-hr"),
 			named(Rotated(KroneckerFull(HurwitzRadon(4, 4), 8, 8), 10), "kronecker/32x32/hr4-full8"))
+	}
+	return out
+}
+
+// UPBComplement is the orthogonal complement in R^{3×3} of the five
+// product vectors of the "Tiles" unextendible product basis (C. H.
+// Bennett, D. P. DiVincenzo, T. Mor, P. W. Shor, J. A. Smolin,
+// B. M. Terhal, "Unextendible product bases and bound entanglement", Phys.
+// Rev. Lett. 82, 1999; the vectors recalled from memory):
+// e₀⊗(e₀ − e₁), (e₀ − e₁)⊗e₂, e₂⊗(e₁ − e₂), (e₁ − e₂)⊗e₀ and
+// (e₀ + e₁ + e₂)⊗(e₀ + e₁ + e₂). W has dimension 4 and contains no
+// rank-one matrix (the basis is unextendible), so d* > 0; its value is not
+// known in closed form (Optimum NaN). Its projector is invariant under
+// the partial transpose (the vectors are real), so the level-one
+// relaxation proves nothing here (ρ = P_W/4 is feasible with value 1),
+// a known weakness that level two and branch-and-bound overcome. The basis
+// is given as the complement computed by gonum's SVD.
+func UPBComplement() Instance {
+	e := [3][3]float64{{1, 0, 0}, {0, 1, 0}, {0, 0, 1}}
+	sub := func(a, b [3]float64) [3]float64 { return [3]float64{a[0] - b[0], a[1] - b[1], a[2] - b[2]} }
+	all := [3]float64{1, 1, 1}
+	pairs := [][2][3]float64{
+		{e[0], sub(e[0], e[1])}, {sub(e[0], e[1]), e[2]}, {e[2], sub(e[1], e[2])}, {sub(e[1], e[2]), e[0]}, {all, all},
+	}
+	prod := mat.NewDense(5, 9, nil)
+	for r, p := range pairs {
+		for i := 0; i < 3; i++ {
+			for j := 0; j < 3; j++ {
+				prod.Set(r, i*3+j, p[0][i]*p[1][j])
+			}
+		}
+	}
+	var svd mat.SVD
+	if !svd.Factorize(prod, mat.SVDFull) {
+		panic("suite: SVD of the UPB failed")
+	}
+	var v mat.Dense
+	svd.VTo(&v)
+	d := make([]float64, 0, 4*9)
+	for c := 5; c < 9; c++ { // the right singular vectors beyond rank 5 span the complement
+		d = append(d, mat.Col(nil, c, &v)...)
+	}
+	return Instance{Family: "upb-complement", Name: "upb-complement/tiles",
+		Basis: subspace.Basis{Count: 4, Rows: 3, Cols: 3, Data: d}, Optimum: math.NaN()}
+}
+
+// Embed returns in padded with zeros to m×n matrices (m ≥ in's rows,
+// n ≥ its columns): the same subspace in the top-left block. Derived here:
+// for unit x = (x₁, x₂), y = (y₁, y₂), P_W(x yᵀ) = P_W(x₁y₁ᵀ), so
+// h ≤ ‖x₁‖²‖y₁‖² h* ≤ h*, with equality at (x₀, 0), (y₀, 0): d* is in's.
+func Embed(in Instance, m, n int) Instance {
+	b := in.Basis
+	if m < b.Rows || n < b.Cols {
+		panic("suite: Embed needs a larger shape")
+	}
+	L, bl := m*n, b.Rows*b.Cols
+	d := make([]float64, b.Count*L)
+	for t := 0; t < b.Count; t++ {
+		for i := 0; i < b.Rows; i++ {
+			copy(d[t*L+i*n:t*L+i*n+b.Cols], b.Data[t*bl+i*b.Cols:t*bl+(i+1)*b.Cols])
+		}
+	}
+	out := in
+	out.Name = fmt.Sprintf("%s/embedded%dx%d", in.Name, m, n)
+	out.Basis = subspace.Basis{Count: b.Count, Rows: m, Cols: n, Data: d}
+	if in.X0 != nil {
+		out.X0, out.Y0 = make([]float64, m), make([]float64, n)
+		copy(out.X0, in.X0)
+		copy(out.Y0, in.Y0)
 	}
 	return out
 }

@@ -8,6 +8,7 @@ import (
 	"github.com/segre-lab/segre/net"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
+	"github.com/segre-lab/segre/sos"
 )
 
 // The structured families' optima (derived on DirectSum and KroneckerFull)
@@ -54,4 +55,46 @@ func TestStructuredWitnesses(t *testing.T) {
 			t.Errorf("%s: flattening Lower %v above d* %v", in.Name, lo, in.Optimum)
 		}
 	}
+}
+
+// The UPB complement (Bennett et al. 1999): W has dimension 4, level one
+// proves nothing there (its projector is
+// PPT-invariant, derived on UPBComplement), and branch-and-bound, an
+// independent global method, proves d* > 0 (the basis is unextendible);
+// embedded in 6×6 (derived on Embed) the same interval holds.
+func TestUPBComplement(t *testing.T) {
+	ctx := context.Background()
+	in := suite.UPBComplement()
+	w := suite.MustNew(t, in)
+	if w.Dim() != 4 {
+		t.Fatalf("dimension %d, want 4", w.Dim())
+	}
+	bb, err := (&net.BranchBound{Gap: 1e-4}).Search(ctx, w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !(bb.Lower > 0.05) {
+		t.Errorf("branch-and-bound Lower %v: the UPB complement holds no rank-one matrix", bb.Lower)
+	}
+	l1, err := (&sos.Bound{}).Search(ctx, w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l1.Lower > 1e-6 {
+		t.Errorf("level one proved Lower %v on a PPT-invariant projector (expected nothing)", l1.Lower)
+	}
+	l2, err := (&sos.LevelTwo{}).Search(ctx, w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l2.Lower > bb.Upper || l2.Lower <= 0 {
+		t.Errorf("level two Lower %v, branch-and-bound [%v, %v]", l2.Lower, bb.Lower, bb.Upper)
+	}
+	e := suite.Embed(in, 6, 6)
+	we := suite.MustNew(t, e)
+	ms, _ := (&rankone.MultiStart{Starts: 16}).Search(ctx, we)
+	if ms.Upper < bb.Lower-1e-9 {
+		t.Errorf("embedded: a witness at %v below the 3×3 Lower %v", ms.Upper, bb.Lower)
+	}
+	t.Logf("UPB complement: branch-and-bound [%v, %v], level two Lower %v", bb.Lower, bb.Upper, l2.Lower)
 }
