@@ -42,6 +42,15 @@ const maxSOSSize = 64
 // budget of a minute is needed).
 const maxFirstOrderSize = 1024
 
+// maxLevelTwoOrder is the largest order m·n(n+1)/2 of the level-two
+// relaxation for which it joins (measured with sos.BenchmarkLevelTwo:
+// 4×4, order 40, well under a second; 5×5, order 75, a few seconds; 6×6,
+// order 126, about 30 s, beyond the default budget). It runs beside level
+// one because level one is weak exactly where level two is needed
+// (PPT-invariant projectors such as the UPB complements, where level one
+// proves nothing).
+const maxLevelTwoOrder = 80
+
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
 // 5×5 (626 constraints) about 1 s and at 4×4 0.25 s on this project's
@@ -54,8 +63,9 @@ const maxComplexSOSSize = 25
 // min(m, n) ≤ 5 (for a complex subspace: the phase-reduced sphere of
 // dimension 2·min(m, n) − 1 ≤ 5), and the level-one sum-of-squares
 // relaxation when m·n ≤ 64 (for a complex subspace its PPT form, when
-// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 1024 (real;
-// thresholds measured, see the README).
+// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 1024, and level
+// two when its order m·n(n+1)/2 ≤ 80 (real; thresholds measured, see the
+// README).
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {
 		return opt.Members
@@ -76,6 +86,9 @@ func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 		members = append(members, &sos.Bound{})
 	} else if w.Field() == subspace.Real && L <= maxFirstOrderSize {
 		members = append(members, &sos.FirstOrder{})
+	}
+	if m, n := w.Rows(), w.Cols(); w.Field() == subspace.Real && m*n*(n+1)/2 <= maxLevelTwoOrder {
+		members = append(members, &sos.LevelTwo{})
 	}
 	return members
 }
@@ -121,6 +134,7 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	var cover *net.Cover
 	var cert *sos.Certificate
 	var zcert *sos.ComplexCertificate
+	var l2cert *sos.LevelTwoCertificate
 	if opt.Proof {
 		for _, s := range members {
 			switch mb := s.(type) {
@@ -142,6 +156,11 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 				if mb.Keep == nil {
 					cert = &sos.Certificate{}
 					mb.Keep = cert
+				}
+			case *sos.LevelTwo:
+				if mb.Keep == nil {
+					l2cert = &sos.LevelTwoCertificate{}
+					mb.Keep = l2cert
 				}
 			}
 		}
@@ -217,6 +236,9 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		}
 		if zcert != nil && zcert.Z != nil {
 			ev.ComplexCertificate = zcert
+		}
+		if l2cert != nil && l2cert.K != nil {
+			ev.LevelTwo = l2cert
 		}
 		rep.Proof, rep.ProofError = proof.Build(ctx, ev)
 	}

@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/segre-lab/segre/net"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
@@ -66,6 +67,31 @@ func TestCertifyStructured16(t *testing.T) {
 		if rep.Stop != GapReached || !strings.HasPrefix(rep.LowerBy, "sos level 1") {
 			t.Errorf("%s: stop %v, Lower %v by %q", in.Name, rep.Stop, rep.Lower, rep.LowerBy)
 		}
+	}
+}
+
+// Where level one proves nothing (the UPB complement: its projector is
+// PPT-invariant, derived in the suite), level two joins and Certify closes
+// the interval; branch-and-bound, run independently, agrees.
+func TestCertifyUPBLevelTwo(t *testing.T) {
+	in := suite.UPBComplement()
+	w := mustNew(t, in)
+	rep, err := Certify(context.Background(), w, Options{Budget: time.Minute, Proof: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Stop != GapReached || !strings.HasPrefix(rep.LowerBy, "sos level 2") && !strings.HasPrefix(rep.LowerBy, "branch-and-bound") {
+		t.Errorf("stop %v, Lower %v by %q", rep.Stop, rep.Lower, rep.LowerBy)
+	}
+	bb, err := (&net.BranchBound{Gap: 1e-4}).Search(context.Background(), w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Lower > bb.Upper || rep.Upper < bb.Lower {
+		t.Errorf("Certify [%v, %v], branch-and-bound [%v, %v]", rep.Lower, rep.Upper, bb.Lower, bb.Upper)
+	}
+	if rep.Proof == nil {
+		t.Fatalf("no proof: %v", rep.ProofError)
 	}
 }
 
