@@ -705,10 +705,17 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 		if !ok {
 			return nil, fmt.Errorf("%w: missing %s", ErrFormat, name)
 		}
-		a, err := subspace.ReadNPY(bytes.NewReader(b), 0)
+		// ReadArray: these arrays are only read (a cover of millions of
+		// cells must not be refused for an orthonormalisation it never
+		// gets), and cost no more than the member's bytes.
+		in, err := subspace.ReadArray(b)
 		if err != nil {
 			return nil, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)
 		}
+		if in.Field != subspace.Real {
+			return nil, fmt.Errorf("%w: %s is not a real array", ErrFormat, name)
+		}
+		a := in.Real
 		if rows >= 0 && a.Count*a.Rows != rows || a.Cols != cols {
 			return nil, fmt.Errorf("%w: %s has shape (%d, %d, %d)", ErrFormat, name, a.Count, a.Rows, a.Cols)
 		}
@@ -740,7 +747,7 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 		if !ok {
 			return nil, fmt.Errorf("%w: missing certificate.npy", ErrFormat)
 		}
-		in, err := subspace.ParseInput(b, 0)
+		in, err := subspace.ReadArray(b)
 		if err != nil {
 			return nil, fmt.Errorf("%w: certificate.npy: %v", ErrFormat, err)
 		}

@@ -208,6 +208,16 @@ func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 	return int(r * m * n), nil
 }
 
+// ReadArray reads a real or complex .npy array held in memory, for callers
+// that only read it and never orthonormalise it (proof files' certificates
+// and branch-and-bound cells): no room is reserved for an
+// orthonormalisation, and the declared shape is checked against len(data)
+// before anything is allocated, so the array costs no more than data
+// itself. The checks of the format are ReadNPY's.
+func ReadArray(data []byte) (Input, error) {
+	return readNPYInput(bytes.NewReader(data), math.MaxInt64/4, int64(len(data)))
+}
+
 // ReadNPY reads a basis from NumPy .npy data. maxBytes (0 means
 // DefaultMaxBytes) bounds the data and the orthonormalisation after it
 // together (see checkShape); the data are read in 64 KiB chunks into one

@@ -508,3 +508,26 @@ func TestComplexText(t *testing.T) {
 		}
 	}
 }
+
+// ReadArray reads an in-memory .npy array (here 2e6×6, a branch-and-bound
+// cover's size) without reserving room for an orthonormalisation, and
+// refuses a header declaring more data than the bytes hold.
+func TestReadArray(t *testing.T) {
+	b := Basis{Count: 1, Rows: 2000000, Cols: 6, Data: make([]float64, 12000000)}
+	b.Data[7] = 3
+	var buf bytes.Buffer
+	if err := WriteNPY(&buf, b); err != nil {
+		t.Fatal(err)
+	}
+	in, err := ReadArray(buf.Bytes())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if in.Field != Real || in.Real.Rows*in.Real.Count != 2000000 || in.Real.Cols != 6 || in.Real.Data[7] != 3 {
+		t.Fatalf("read back %+v", in.Real.Count)
+	}
+	cut := buf.Bytes()[:buf.Len()/2]
+	if _, err := ReadArray(cut); err == nil {
+		t.Error("a truncated array was accepted")
+	}
+}
