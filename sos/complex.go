@@ -376,7 +376,9 @@ func (b *Bound) searchComplex(ctx context.Context, w *subspace.Subspace) (rankon
 		return res, err
 	}
 	cert := rel.Certificate(sol.Y)
-	if hb, verr := VerifyComplex(w, cert); verr == nil {
+	// Only a bound below 1 proves anything over C (hb = 1 gives d'' ≥ 1/√2,
+	// which every complex subspace satisfies).
+	if hb, verr := VerifyComplex(w, cert); verr == nil && hb < 1 {
 		if lo := rankone.DistanceLower(hb / 2); lo > 0 {
 			res.Lower, res.LowerBy = lo, "sos level 1"
 			if b.KeepComplex != nil {
