@@ -85,7 +85,7 @@ func ValueLower(upper float64) float64 {
 // Counter wraps a Subspace's contractions and counts the calls, each about
 // one pass over the stored basis, for Result.Evaluations. It is not safe
 // for concurrent use: give each goroutine its own. Its GOperator,
-// HOperator, ApplyG, ApplyH and ApplyPartialTrace1/2 are the subspace's search operators
+// HOperator, ApplyG, ApplyH, ApplyPartialTrace1/2, Project and Gradient are the subspace's search operators
 // (subspace.SearchGOperator): for a complex subspace estimates built from
 // its complex basis, for searches only, never for a certified bound.
 type Counter struct {

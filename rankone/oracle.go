@@ -33,7 +33,7 @@ func (o *oracle) Residual(x, y []float64) float64 { o.evals++; return o.w.Residu
 func (o *oracle) Value(x, y []float64) float64    { o.evals++; return o.w.Value(x, y) }
 func (o *oracle) Gradient(gx, gy, x, y, buf []float64) float64 {
 	o.evals++
-	return o.w.Gradient(gx, gy, x, y, buf)
+	return o.w.SearchGradient(gx, gy, x, y, buf)
 }
 func (o *oracle) ApplyPartialTrace1(dst, x []float64) { o.evals++; o.w.SearchPartialTrace1(dst, x) }
 func (o *oracle) ApplyPartialTrace2(dst, y []float64) { o.evals++; o.w.SearchPartialTrace2(dst, y) }

@@ -241,3 +241,28 @@ func (w *Subspace) SearchProject(dst, a []float64) {
 		}
 	}
 }
+
+// SearchGradient is Gradient for a local search: the projection by
+// SearchProject (for a complex subspace, from the complex basis at half the
+// data; equal to Gradient up to rounding). It panics on wrong lengths.
+func (w *Subspace) SearchGradient(gx, gy, x, y, buf []float64) float64 {
+	if w.cx == nil {
+		return w.Gradient(gx, gy, x, y, buf)
+	}
+	w.checkX(x, "x")
+	w.checkY(y, "y")
+	w.checkX(gx, "gx")
+	w.checkY(gy, "gy")
+	L := w.m * w.n
+	if buf == nil {
+		buf = make([]float64, L)
+	} else if len(buf) != L {
+		panic("subspace: SearchGradient's matrix buffer must have length m·n")
+	}
+	kron(buf, x, y)
+	w.SearchProject(buf, buf)
+	mm := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: buf}
+	blas64.Gemv(blas.NoTrans, 2, mm, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: gx, Inc: 1})
+	blas64.Gemv(blas.Trans, 2, mm, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: gy, Inc: 1})
+	return dot(gx, x) / 2
+}

@@ -101,6 +101,23 @@ func TestSearchOperatorsMatch(t *testing.T) {
 		for i := range a {
 			a[i] = rng.NormFloat64()
 		}
+		x, y := make([]float64, 6), make([]float64, 8)
+		for i := range x {
+			x[i] = rng.NormFloat64()
+		}
+		for i := range y {
+			y[i] = rng.NormFloat64()
+		}
+		gx1, gy1, gx2, gy2 := make([]float64, 6), make([]float64, 8), make([]float64, 6), make([]float64, 8)
+		h1, h2 := w.Gradient(gx1, gy1, x, y, nil), w.SearchGradient(gx2, gy2, x, y, nil)
+		if math.Abs(h1-h2) > 1e-12*math.Abs(h1) {
+			t.Errorf("gradient's value %v, search %v", h1, h2)
+		}
+		for i := range gx1 {
+			if math.Abs(gx1[i]-gx2[i]) > 1e-12*(1+math.Abs(gx1[i])) {
+				t.Errorf("gradient x[%d]: %v and %v", i, gx1[i], gx2[i])
+			}
+		}
 		p1, p2 := make([]float64, len(a)), append([]float64(nil), a...)
 		w.Project(p1, a)
 		w.SearchProject(p2, p2) // in place
