@@ -9,8 +9,11 @@
 // callers that want h and d² pass unit vectors.
 //
 // The stored basis. New orthonormalises the input by Householder QR with
-// column pivoting and keeps whichever of W and W⊥ has the smaller dimension,
-// as s floating-point vectors of length mn. Every contraction reads only that
+// column pivoting (blocked, its pivots chosen a block at a time from a
+// random sketch and checked against the rank rule of Options.RankTol; see
+// qrcp.go) on every core, and keeps whichever of W and W⊥ has the smaller
+// dimension, as s floating-point vectors of length mn. The result is the
+// same, bit for bit, for any GOMAXPROCS. Every contraction reads only that
 // storage. The certified bounds (ResidualBound, PartialTraces) are proven for
 // the subspace the stored vectors span exactly (W itself, or the orthogonal
 // complement of the stored span); BackwardError says how far that stored
@@ -32,7 +35,6 @@ import (
 	"gonum.org/v1/gonum/blas/blas64"
 
 	"github.com/segre-lab/segre/internal/accurate"
-	"github.com/segre-lab/segre/internal/tiled"
 )
 
 // Errors for bad user data, usable with errors.Is.
@@ -66,7 +68,9 @@ func (b Basis) Matrix(t int) []float64 {
 type Options struct {
 	// RankTol is the rank tolerance. Every input matrix is first scaled to unit
 	// Frobenius norm; pivoted QR then stops when every remaining matrix lies
-	// within Frobenius distance RankTol of the span of those already chosen.
+	// within Frobenius distance RankTol of the span of those already chosen,
+	// each of which was farther than RankTol from the span of those chosen
+	// before it (distances as computed in the factorisation).
 	// Zero means max(m·n, r)·2^-52, the usual rule for numerical rank
 	// (common practice: NumPy's matrix_rank and LAPACK-based codes use
 	// σ_max·max(M, N)·eps). RankTol must be in [0, 1).
@@ -78,6 +82,10 @@ type Options struct {
 	// exceed it are not built. Zero means DefaultMaxBytes; negative is
 	// invalid.
 	MaxBytes int64
+	// Progress, if set, is called by the goroutine running New with the
+	// estimated fraction of New's work done so far, in [0, 1], at most every
+	// 200 ms, and with 1 when New succeeds. Nil means no reports.
+	Progress func(fraction float64)
 
 	keepW bool // store W even when W⊥ is smaller (the complex path needs W)
 }
@@ -148,9 +156,11 @@ func (w *Subspace) RankGap() (kept, left float64) { return w.rankKept, w.rankLef
 func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 
 // New builds the subspace spanned by the matrices of b. b is not modified.
-// The factorisation checks ctx between its steps (each a few milliseconds
-// for inputs of tens of megabytes) and returns ctx.Err(), wrapped, when it
-// is done first; nothing is kept then.
+// It runs on min(GOMAXPROCS, 8) goroutines; the result does not depend on
+// their number. The factorisation checks ctx between its steps and inside
+// its products (every few milliseconds for inputs of tens of megabytes)
+// and returns ctx.Err(), wrapped, when it is done first; nothing is kept
+// then. Options.Progress, if set, hears how far it has got.
 //
 // It runs three steps: validate (options, shapes, memory, finiteness),
 // normalise (unit-norm copies of the nonzero matrices) and factor (pivoted
@@ -164,7 +174,7 @@ func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	if err != nil {
 		return nil, err
 	}
-	return factor(ctx, b, in, tol, limit, opt.keepW)
+	return factor(ctx, b, in, tol, limit, opt)
 }
 
 // validate checks opt and b in the order of the errors New documents
@@ -280,20 +290,39 @@ func unitScale(row []float64, nrm float64) (f float64, sh int) {
 	return f, 0
 }
 
-// factor orthonormalises the normalised input by pivoted QR and builds the
-// Subspace: it forms Q, keeps the smaller of W (the first k columns of Q)
-// and W⊥ (the complement basis from the reflectors), and records the
-// reconstruction error and the orthogonality of the stored vectors. It
-// consumes in.a. ctx is checked between the steps; when it is done the
-// result is discarded and its error returned, wrapped.
-func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64, keepW bool) (*Subspace, error) {
+// factor orthonormalises the normalised input by pivoted QR (qrcp.go)
+// and builds the Subspace: it keeps the smaller of W (the first k columns
+// of Q) and W⊥ (the last L−k, built from the reflectors first), forms the
+// first k columns of Q in place, and records the reconstruction error and
+// the orthogonality of the stored vectors. It consumes in.a. ctx is
+// checked between the steps and inside them; when it is done the result
+// is discarded and its error returned, wrapped.
+//
+// What is certified, and why the factorisation itself need not be. Every
+// certified number about the stored basis is computed afterwards from the
+// stored floats alone: η (orthogonality, a proven bound on ‖SSᵀ − I‖₂ from
+// their Gram matrix with its rounding counted) and the bound on ‖S‖_F²
+// (accurate.SumSqUpper). The contractions' certified bounds (ResidualBound,
+// the bound builders through Stored) hold for the subspace these floats
+// span, whatever arithmetic produced them; InputDistance proves the
+// distance to the input's span from the stored floats and the input again.
+// So the factorisation's products may round in any order, use fused
+// multiply-adds and run on any number of workers (their result is the same
+// for every number of workers, see gemm.go). What the factorisation does
+// promise is the rank rule of Options.RankTol (kept exactly, see qrcp.go)
+// and the reconstruction error it reports, which is computed afresh from
+// the caller's data and the stored Q and R.
+func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64, opt Options) (*Subspace, error) {
 	m, n := b.Rows, b.Cols
 	L := m * n
+	rr := len(in.orig)
 	a := in.a
 	in.a = nil // a is the only reference, so that it can be released below
 	stop := func() bool { return ctx.Err() != nil }
 	cancelled := func() (*Subspace, error) { return nil, fmt.Errorf("subspace: %w", ctx.Err()) }
-	f := pivotedQR(a, len(in.orig), L, tol, stop)
+	g := newGemmPool(max(rr, L))
+	pr := newProgress(opt.Progress, newWork(rr, L))
+	f := factorQR(a, rr, L, tol, stop, g, pr.add)
 	if stop() {
 		return cancelled()
 	}
@@ -302,40 +331,61 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	if k > 0 {
 		w.rankKept = math.Abs(f.diag[k-1])
 	}
-	w.comp = L-k < k && !keepW
-
-	var refl []float64
+	w.comp = L-k < k && !opt.keepW
 	if w.comp {
-		refl = append([]float64(nil), a[:k*L]...)
-	}
-	f.formQ(a, L, stop)
-	qw := a[:k*L]
-	w.recon = reconstruction(b.Data, in.orig, in.scale, in.shift, f, qw, L, stop)
-	if w.comp {
-		a = nil // release the input copy before the complement is built
 		w.s = L - k
-		w.q = complementBasis(refl, f.beta, k, L, stop)
-	} else {
+		w.q = f.complement(g, a, L, stop, pr.add)
+	}
+	f.formQWith(g, a, L, stop, pr.add)
+	qw := a[:k*L]
+	w.recon = reconstruction(g, b.Data, in.orig, in.scale, in.shift, f, qw, L, stop)
+	pr.add(float64(rr) * float64(k) * float64(L))
+	if !w.comp {
 		w.s = k
 		w.q = qw[: k*L : k*L]
 	}
+	a, qw, f = nil, nil, nil // release the input copy (the stored complement does not need it)
 	w.sumSq = accurate.SumSqUpper(w.q)
-	w.orthFl, w.eta = orthogonality(w.q, w.s, L, w.sumSq, stop)
+	w.orthFl, w.eta = orthogonalityWith(g, w.q, w.s, L, w.sumSq, stop)
 	if stop() {
 		return cancelled()
 	}
+	pr.finish()
 	return w, nil
 }
 
 // workBytes estimates New's peak working storage in bytes for r matrices of
-// L entries: the normalised copy, R, and (at most) a complement basis.
+// L entries, from the allocations of factor (an upper bound: they do not
+// all live at once). With k = min(r, L), s the number of vectors stored
+// (min(k, L−k)), nb = qrNB and p = qrNB + qrOver, in 8-byte words:
+//   - the normalised copy, factored in place: r·L; R: r·k; the blocks' T:
+//     k·nb; pivots, norms and factors: 3r + 2k;
+//   - the block products' intermediates (rows ≤ r: the complement, the
+//     only other row count, is stored only when L − k < k ≤ r), once in
+//     the factorisation, in forming Q and in the complement: 3·2nb·r; the
+//     saved triangle and the Gram matrix of a block: 2nb²; formQ's slice
+//     of a block's columns: nb·formCols;
+//   - the sketch, when used: r·p + p·sketchCols + 2nb·p, and the choice's
+//     vectors: 6r + 2nb;
+//   - the reconstruction's chunk: reconChunk(r)·L; the stored complement
+//     ((L−k)·L, when stored); the Gram matrix of the stored vectors: s²;
+//   - the packing buffers of the products (gemmBytes).
 func workBytes(r, L int) int64 {
 	k := int64(min(r, L))
-	b := int64(r)*int64(L) + k*int64(r) + 4*int64(L)
-	if L-int(k) < int(k) {
-		b += int64(L-int(k))*int64(L) + k*int64(L)
+	r64, L64 := int64(r), int64(L)
+	s := min(k, L64-k)
+	nb, p := int64(qrNB), int64(qrNB+qrOver)
+	b := r64*L64 + r64*k + k*nb + 3*r64 + 2*k
+	b += 6*nb*r64 + 2*nb*nb + nb*formCols
+	if r > qrPanelMax && min(r, L) > qrNB {
+		b += r64*p + p*sketchCols + 2*nb*p + 6*r64 + 2*nb
 	}
-	return 8 * b
+	b += int64(reconChunk(r)) * L64
+	if L64-k < k {
+		b += (L64 - k) * L64
+	}
+	b += s * s
+	return 8*b + gemmBytes(max(r, L))
 }
 
 func mulOK(a, b int) (int, bool) {
@@ -349,184 +399,29 @@ func mulOK(a, b int) (int, bool) {
 	return c, true
 }
 
-// qrFactors describes a pivoted Householder QR of the rr×L row array a
-// (rows are the columns of the mn×rr matrix being factored).
-type qrFactors struct {
-	k    int
-	perm []int     // perm[j] = copied column in pivot position j
-	diag []float64 // R_jj
-	beta []float64 // H_j = I − beta_j v_j v_jᵀ, v_j stored in row j from entry j
-	r    []float64 // R, k×rr row-major, in pivoted column order
-	left float64   // norm of the first column left out by the rank decision (0: none)
-}
-
-// pivotedQR factors a in place (Businger & Golub, Numer. Math. 7, 1965:
-// Householder QR with column pivoting; partial norms downdated as in LAPACK's
-// xLAQP2, recomputed when cancellation makes the downdate unreliable).
-// It stops at the first step where every remaining partial norm is ≤ tol.
-// stop is checked before every step; when it reports true the
-// factorisation ends early (the caller discards it).
-func pivotedQR(a []float64, rr, L int, tol float64, stop func() bool) *qrFactors {
-	f := &qrFactors{perm: make([]int, rr)}
-	nrm := make([]float64, rr)
-	ref := make([]float64, rr)
-	for i := range rr {
-		f.perm[i] = i
-		nrm[i] = blas64.Nrm2(blas64.Vector{N: L, Data: a[i*L : (i+1)*L], Inc: 1})
-		ref[i] = nrm[i]
-	}
-	tol3z := math.Sqrt(0x1p-52)
-	steps := min(rr, L)
-	w := make([]float64, rr)
-	for j := 0; j < steps && !stop(); j++ {
-		p := j
-		for i := j + 1; i < rr; i++ {
-			if nrm[i] > nrm[p] {
-				p = i
-			}
-		}
-		if p != j {
-			blas64.Swap(blas64.Vector{N: L, Data: a[j*L:], Inc: 1}, blas64.Vector{N: L, Data: a[p*L:], Inc: 1})
-			nrm[j], nrm[p] = nrm[p], nrm[j]
-			ref[j], ref[p] = ref[p], ref[j]
-			f.perm[j], f.perm[p] = f.perm[p], f.perm[j]
-		}
-		x := a[j*L+j : (j+1)*L]
-		xn := blas64.Nrm2(blas64.Vector{N: len(x), Data: x, Inc: 1})
-		if xn <= tol {
-			f.left = xn
-			break
-		}
-		// H = I − beta·v vᵀ with v = x − alpha·e₁, alpha = −sign(x₀)‖x‖, so that
-		// Hx = alpha·e₁ and vᵀv = 2‖x‖(‖x‖ + |x₀|) without cancellation.
-		x0 := x[0]
-		alpha := -math.Copysign(xn, x0)
-		x[0] = x0 - alpha
-		beta := 1 / (xn * (xn + math.Abs(x0)))
-		f.diag = append(f.diag, alpha)
-		f.beta = append(f.beta, beta)
-		f.k = j + 1
-		if rest := rr - j - 1; rest > 0 {
-			blk := blas64.General{Rows: rest, Cols: L - j, Stride: L, Data: a[(j+1)*L+j:]}
-			v := blas64.Vector{N: L - j, Data: x, Inc: 1}
-			wv := blas64.Vector{N: rest, Data: w[:rest], Inc: 1}
-			blas64.Gemv(blas.NoTrans, 1, blk, v, 0, wv)
-			blas64.Ger(-beta, wv, v, blk)
-			for i := j + 1; i < rr; i++ {
-				if nrm[i] == 0 {
-					continue
-				}
-				t := math.Abs(a[i*L+j]) / nrm[i]
-				t = math.Max(0, (1+t)*(1-t))
-				t2 := t * (nrm[i] / ref[i]) * (nrm[i] / ref[i])
-				if t2 <= tol3z {
-					if j+1 < L {
-						nrm[i] = blas64.Nrm2(blas64.Vector{N: L - j - 1, Data: a[i*L+j+1 : (i+1)*L], Inc: 1})
-					} else {
-						nrm[i] = 0
-					}
-					ref[i] = nrm[i]
-				} else {
-					nrm[i] *= math.Sqrt(t)
-				}
-			}
-		}
-	}
-	k := f.k
-	f.r = make([]float64, k*rr)
-	for i := 0; i < rr; i++ {
-		for p := 0; p < min(i, k); p++ {
-			f.r[p*rr+i] = a[i*L+p]
-		}
-		if i < k {
-			f.r[i*rr+i] = f.diag[i]
-		}
-	}
-	return f
-}
-
-// formQ overwrites rows 0..k−1 of a with the first k columns of
-// H_0 H_1 ⋯ H_{k−1} (backward accumulation, as LAPACK's xORG2R).
-// It returns early, leaving a unusable, when stop reports true.
-func (f *qrFactors) formQ(a []float64, L int, stop func() bool) {
-	k := f.k
-	w := make([]float64, k)
-	for j := k - 1; j >= 0 && !stop(); j-- {
-		v := a[j*L+j : (j+1)*L]
-		if rest := k - j - 1; rest > 0 {
-			for i := j + 1; i < k; i++ {
-				a[i*L+j] = 0
-			}
-			blk := blas64.General{Rows: rest, Cols: L - j, Stride: L, Data: a[(j+1)*L+j:]}
-			vv := blas64.Vector{N: L - j, Data: v, Inc: 1}
-			wv := blas64.Vector{N: rest, Data: w[:rest], Inc: 1}
-			blas64.Gemv(blas.NoTrans, 1, blk, vv, 0, wv)
-			blas64.Ger(-f.beta[j], wv, vv, blk)
-		}
-		c := f.beta[j] * v[0]
-		for t := range v {
-			v[t] *= -c
-		}
-		v[0] += 1
-		for t := 0; t < j; t++ {
-			a[j*L+t] = 0
-		}
-	}
-}
-
-// complementBasis returns the last L−k columns of H_0 ⋯ H_{k−1}, an
-// orthonormal basis of the orthogonal complement of the first k, as rows.
-// It returns early, with an unusable result, when stop reports true.
-func complementBasis(refl, beta []float64, k, L int, stop func() bool) []float64 {
-	s := L - k
-	out := make([]float64, s*L)
-	for t := 0; t < s; t++ {
-		out[t*L+k+t] = 1
-	}
-	if s == 0 {
-		return out
-	}
-	w := make([]float64, s)
-	for j := k - 1; j >= 0 && !stop(); j-- {
-		v := blas64.Vector{N: L - j, Data: refl[j*L+j : (j+1)*L], Inc: 1}
-		blk := blas64.General{Rows: s, Cols: L - j, Stride: L, Data: out[j:]}
-		wv := blas64.Vector{N: s, Data: w, Inc: 1}
-		blas64.Gemv(blas.NoTrans, 1, blk, v, 0, wv)
-		blas64.Ger(-beta[j], wv, v, blk)
-	}
-	return out
-}
-
 // reconstruction returns ‖B̂Π − QR‖_F/‖B̂‖_F, recomputing each unit-normalised
-// input column from the caller's data, in chunks to bound the memory.
+// input column from the caller's data, in chunks to bound the memory: the
+// chunk's columns of QR are one blocked product (R is upper trapezoidal,
+// so the columns c0..c1−1 need only the first min(c1, k) rows of Q).
 // It returns early, with a meaningless value, when stop reports true.
-func reconstruction(data []float64, orig []int, scale []float64, shift []int, f *qrFactors, q []float64, L int, stop func() bool) float64 {
+func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, shift []int, f *qrFactors, q []float64, L int, stop func() bool) float64 {
 	rr, k := len(orig), f.k
-	const chunk = 32
+	chunk := reconChunk(rr)
 	buf := make([]float64, chunk*L)
-	rc := make([]float64, chunk*k)
 	var ss float64
 	for c0 := 0; c0 < rr && !stop(); c0 += chunk {
 		c1 := min(c0+chunk, rr)
 		nc := c1 - c0
-		for j := c0; j < c1; j++ {
-			for p := 0; p < k; p++ {
-				rc[(j-c0)*k+p] = f.r[p*rr+j]
-			}
-		}
-		if k > 0 {
-			blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
-				blas64.General{Rows: nc, Cols: k, Stride: k, Data: rc},
-				blas64.General{Rows: k, Cols: L, Stride: L, Data: q},
-				0, blas64.General{Rows: nc, Cols: L, Stride: L, Data: buf})
-		} else {
-			clear(buf)
+		qr := buf[:nc*L]
+		clear(qr)
+		if kk := min(c1, k); kk > 0 {
+			g.mul(nc, L, kk, false, operand{f.rt[c0*k:], k, false}, operand{q, L, false}, qr, L, stop)
 		}
 		for j := c0; j < c1; j++ {
 			col := f.perm[j]
 			src := data[orig[col]*L : (orig[col]+1)*L]
 			sc, sh := scale[col], shift[col]
-			row := buf[(j-c0)*L : (j-c0+1)*L]
+			row := qr[(j-c0)*L : (j-c0+1)*L]
 			for i, v := range src {
 				if sh != 0 {
 					v = math.Ldexp(v, sh)
@@ -539,25 +434,43 @@ func reconstruction(data []float64, orig []int, scale []float64, shift []int, f 
 	return math.Sqrt(ss / float64(rr))
 }
 
+// reconChunk is the number of columns of QR that reconstruction forms at
+// a time for rr columns: an eighth of them (so the buffer is at most an
+// eighth of the input copy, and Q is packed at most eight times), between
+// 32 and 256.
+func reconChunk(rr int) int { return min(rr, max(32, min(256, rr/8))) }
+
 // orthogonality returns the computed ‖SSᵀ − I‖_F and a proven bound η on
 // ‖SSᵀ − I‖₂ for the s stored rows of length L.
 //
 // Derivation: each entry of the float Gram matrix Ĝ = fl(SSᵀ) satisfies
 // |Ĝ_ij − G_ij| ≤ γ_L Σ_ℓ|S_iℓ||S_jℓ| ≤ γ_L‖s_i‖‖s_j‖ (Higham 2002, eq. 3.5,
-// any summation order; Cauchy–Schwarz), and the matrix [‖s_i‖‖s_j‖] has
+// any summation order; Cauchy–Schwarz). Ĝ is formed by gemmPool.gram: each
+// product S_iℓ·S_jℓ rounded to binary64 (never fused with its addition:
+// tile4x12Sep, or float64(a*b) in Go), the L rounded products summed in
+// slices of tileK, each slice from zero in one register lane, the slice
+// sums added in turn to the entry (first to an exact zero) — one summation
+// order among those eq. 3.5 covers, so each term meets at most L roundings
+// including its product's. The matrix [‖s_i‖‖s_j‖] has
 // Frobenius norm Σ‖s_i‖² = ‖S‖_F². So ‖G − I‖₂ ≤ ‖Ĝ − I‖_F + γ_L‖S‖_F², each
 // term evaluated with upward rounding (Ĝ_ij − δ_ij is rounded once more, and
 // the squares and sum add s²+1 roundings).
 //
-// The Gram matrix is formed in column tiles with stop checked between them;
-// if it reports true the result is meaningless (the caller discards it).
+// The Gram matrix is formed in blocks with stop checked between them, on
+// all cores (the same result for any number of workers); if stop reports
+// true the result is meaningless (the caller discards it).
 // sf is a proven upper bound on ‖S‖_F².
 func orthogonality(q []float64, s, L int, sf float64, stop func() bool) (computed, bound float64) {
+	return orthogonalityWith(newGemmPool(max(s, L)), q, s, L, sf, stop)
+}
+
+// orthogonalityWith is orthogonality with the caller's product pool.
+func orthogonalityWith(gp *gemmPool, q []float64, s, L int, sf float64, stop func() bool) (computed, bound float64) {
 	if s == 0 {
 		return 0, 0
 	}
 	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
-	if !tiled.Gram(blas.NoTrans, blas64.General{Rows: s, Cols: L, Stride: L, Data: q}, g, stop) {
+	if !gp.gram(s, L, q, g.Data, stop) {
 		return math.Inf(1), math.Inf(1)
 	}
 	var ss float64
