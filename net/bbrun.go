@@ -31,8 +31,11 @@ type bbRun struct {
 
 	sd    side
 	d     int
-	sides []side      // one per worker
-	cbuf  [][]float64 // one centre buffer per worker
+	sides []side      // one per worker (shard.go evaluates with sides[0])
+	work  []*cellWork // one per worker: its side and buffers (see evaluate)
+	pool  *cellPool   // the workers (nil until the first batch; close ends it)
+	vbuf  []float64   // the batch's exact-side vectors, p per cell (reused)
+	vecs  [][]float64 // vecs[i] = cell i's slice of vbuf
 
 	res     rankone.Result // the incumbent, counts so far
 	hLow    float64        // proven lower bound on h* from the incumbent
@@ -78,10 +81,10 @@ func (r *bbRun) setup(ctx context.Context) error {
 		return err
 	}
 	r.sides = make([]side, r.workers)
-	r.cbuf = make([][]float64, r.workers)
+	r.work = make([]*cellWork, r.workers)
 	for k := range r.sides {
 		r.sides[k] = r.sd // a copy: its own evaluation count
-		r.cbuf[k] = make([]float64, r.d)
+		r.work[k] = newCellWork(r.sd)
 	}
 	r.status = rankone.LimitReached
 	r.limit = rankone.NoLimit
@@ -199,29 +202,47 @@ func (r *bbRun) initial(ctx context.Context) error {
 
 // evaluate bounds the cells, in parallel, each into its own slot: the
 // centre's estimate and proven f̄, the warm start for its children, the
-// radius; vecs[i] is cell i's best exact-side vector. Once ctx is done the
+// radius; vecs[i] is cell i's best exact-side vector (valid until the next
+// batch: the slices share one buffer, reused). Each worker evaluates with
+// its own cellWork (side, centre, matrix and Lanczos buffers), so a cell
+// allocates only its children's float32 warm start. Once ctx is done the
 // remaining cells are skipped and the caller abandons the batch: the bound
 // lam is valid without it (it bounds h over the parents, which were popped
 // with keys counted in lam), so a deadline waits for at most one cell per
 // worker.
 func (r *bbRun) evaluate(ctx context.Context, cells []*cell) (vecs [][]float64) {
-	vecs = make([][]float64, len(cells))
 	d, p := r.d, r.sd.p
-	rankone.ParallelFor(ctx, len(cells), r.workers, func(k, i int) {
-		s, c := &r.sides[k], r.cbuf[k]
+	n := len(cells)
+	if cap(r.vbuf) < n*p {
+		r.vbuf = make([]float64, n*p)
+	}
+	r.vbuf = r.vbuf[:n*p]
+	r.vecs = r.vecs[:0]
+	for i := 0; i < n; i++ {
+		r.vecs = append(r.vecs, r.vbuf[i*p:(i+1)*p:(i+1)*p])
+	}
+	vecs = r.vecs
+	if r.pool == nil {
+		r.pool = newCellPool(r.work)
+	}
+	r.pool.run(ctx, n, func(ws *cellWork, i int) {
 		cl := cells[i]
+		c := ws.c
 		cl.centre(c, d)
-		v := make([]float64, p)
+		v := vecs[i]
+		for j := range v {
+			v[j] = 0
+		}
 		for j, a := range cl.vec {
 			v[j] = float64(a)
 		}
-		cl.est, cl.fbar, cl.guess = s.value(c, v)
-		cl.vec = make([]float32, p)
+		cl.est, cl.fbar, cl.guess = ws.value(c, v)
+		w := make([]float32, p)
 		for j, a := range v {
-			cl.vec[j] = float32(a)
+			w[j] = float32(a)
 		}
+		cl.vec = w
 		cl.r = cl.radius()
-		vecs[i] = v
 	})
 	return vecs
 }
@@ -466,6 +487,14 @@ func (r *bbRun) choose() bool {
 		return false
 	}
 	return true
+}
+
+// close ends the run's worker goroutines, if any were started.
+func (r *bbRun) close() {
+	if r.pool != nil {
+		r.pool.close()
+		r.pool = nil
+	}
 }
 
 // result builds the Result: the incumbent, the status, the evaluations

@@ -6,12 +6,9 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
-	"gonum.org/v1/gonum/mat"
 
 	"github.com/segre-lab/segre/internal/accurate"
-	"github.com/segre-lab/segre/internal/eigen"
 	"github.com/segre-lab/segre/internal/rawstore"
-	"github.com/segre-lab/segre/internal/verified"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -102,29 +99,39 @@ func NewBlockForm(w *subspace.Subspace, onX bool) *BlockForm {
 // the sum). The rest is as in MaxEigH: W stored, λmax(H) ≤ (λ̄max(A) + δ)/(1−η);
 // W⊥ stored, λmax(H) ≤ ‖c‖² − max(0, λ̲min(A) − δ)/(1+η).
 func (f *BlockForm) MaxEig(c, vec []float64) (est, upper float64) {
+	var ws formWork
+	return f.maxEig(c, vec, &ws)
+}
+
+// formWork is the reusable workspace of BlockForm.maxEig: the assembled
+// matrix and the Lanczos buffers. One per worker; the zero value is ready.
+type formWork struct {
+	a    []float64 // p×p
+	lz   lanczos
+	chol cholWork
+}
+
+// maxEig is MaxEig with the caller's workspace (nothing allocated once ws
+// is sized): the same estimate and bound, bit for bit.
+func (f *BlockForm) maxEig(c, vec []float64, ws *formWork) (est, upper float64) {
 	d, p := f.d, f.p
 	if len(c) != d || len(vec) != p {
 		panic("net: BlockForm.MaxEig needs vectors of lengths " + strconv.Itoa(d) + " and " + strconv.Itoa(p))
 	}
-	a, delta := f.assemble(c)
+	if len(ws.a) != p*p {
+		ws.a = make([]float64, p*p)
+	}
+	a, delta := f.assembleInto(c, ws.a)
 	cEst := sumSqEst(c)
-	// The estimate uses the full float matrix with the (assembly) general
-	// matrix-vector product; only the bound needs the exact symmetric form.
-	full := blas64.General{Rows: p, Cols: p, Stride: p, Data: append([]float64(nil), a...)}
-	alpha, shift := 1.0, 0.0
+	// The estimate runs on the full float matrix A with general
+	// matrix-vector products; only the bound needs the exact symmetric form
+	// (its upper triangle, which the verified test reads).
+	shift := 0.0
 	if f.comp {
-		alpha, shift = -1, cEst
+		shift = cEst
 	}
-	apply := func(dst, src []float64) {
-		blas64.Gemv(blas.NoTrans, alpha, full, blas64.Vector{N: p, Data: src, Inc: 1}, 0, blas64.Vector{N: p, Data: dst, Inc: 1})
-		if shift != 0 {
-			for i := range dst {
-				dst[i] += float64(shift * src[i])
-			}
-		}
-	}
-	est, _ = eigen.Top(apply, vec, 0, 0, 1e-10)
-	return est, f.upper(c, a, delta, cEst, est)
+	est = ws.lz.topDense(a, p, f.comp, shift, vec, 1e-10)
+	return est, f.upperWith(c, a, delta, cEst, est, &ws.chol)
 }
 
 // maxEigUpper is the proven part of MaxEig: the upper bound derived there,
@@ -144,8 +151,15 @@ func (f *BlockForm) maxEigUpper(c []float64, est float64) float64 {
 // assemble returns A = fl(Σ_ab c_a c_b M̂_ab) (p×p, row-major) and the
 // bound δ on its error derived on MaxEig, √2 factor included.
 func (f *BlockForm) assemble(c []float64) (a []float64, delta float64) {
+	return f.assembleInto(c, make([]float64, f.p*f.p))
+}
+
+// assembleInto is assemble writing A into buf (p×p, overwritten): for each
+// block in order, A += c_a c_b·M̂_ab by gonum's Axpy.
+func (f *BlockForm) assembleInto(c, buf []float64) (a []float64, delta float64) {
 	d, p := f.d, f.p
-	a = make([]float64, p*p)
+	a = buf[:p*p]
+	clear(a)
 	for i := 0; i < d; i++ {
 		for j := 0; j < d; j++ {
 			cij := c[i] * c[j]
@@ -175,6 +189,14 @@ func sumSqEst(c []float64) float64 {
 // upper finishes the bound of MaxEig from the assembled A, its error bound
 // δ, the estimate cEst of ‖c‖² and the eigenvalue estimate est.
 func (f *BlockForm) upper(c, a []float64, delta, cEst, est float64) float64 {
+	var w cholWork
+	return f.upperWith(c, a, delta, cEst, est, &w)
+}
+
+// upperWith is upper with the caller's workspace for the verified test
+// (maxEigUpperSym and minEigLowerSym: verified's MaxEigUpper and
+// MinEigLower on the upper triangle of A, bit for bit).
+func (f *BlockForm) upperWith(c, a []float64, delta, cEst, est float64, w *cholWork) float64 {
 	for _, v := range c {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return math.Inf(1)
@@ -183,13 +205,12 @@ func (f *BlockForm) upper(c, a []float64, delta, cEst, est float64) float64 {
 	if f.eta >= 0.5 {
 		return math.Inf(1)
 	}
-	am := mat.NewSymDense(f.p, a)
 	if !f.comp {
-		lam := accurate.AddUp(verified.MaxEigUpper(am, est), delta)
+		lam := accurate.AddUp(maxEigUpperSym(a, f.p, est, w), delta)
 		return accurate.Up(math.Max(lam, 0) / accurate.Down(1-f.eta))
 	}
 	cc := accurate.SumSqUpper(c)
-	lmin := accurate.Down(verified.MinEigLower(am, cEst-est) - delta)
+	lmin := accurate.Down(minEigLowerSym(a, f.p, cEst-est, w) - delta)
 	sub := accurate.Down(math.Max(lmin, 0) / accurate.Up(1+f.eta))
 	return math.Max(0, accurate.Up(cc-sub))
 }

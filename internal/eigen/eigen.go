@@ -167,18 +167,7 @@ func topTridiag(a, b, s []float64) (float64, bool) {
 		s[0] = 1
 		return a[0], true
 	}
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for i := 0; i < k; i++ {
-		r := 0.0
-		if i > 0 {
-			r += math.Abs(b[i-1])
-		}
-		if i < k-1 {
-			r += math.Abs(b[i])
-		}
-		lo = math.Min(lo, a[i]-r)
-		hi = math.Max(hi, a[i]+r)
-	}
+	lo, hi := TridiagGershgorin(a, b)
 	scale := math.Max(math.Abs(lo), math.Abs(hi))
 	if scale == 0 {
 		clear(s)
@@ -216,10 +205,26 @@ func topTridiag(a, b, s []float64) (float64, bool) {
 	theta := lo + (hi-lo)/2
 	// Inverse iteration on T − θI from the all-ones vector.
 	d, du, dl, du2 := make([]float64, k), make([]float64, k), make([]float64, k), make([]float64, k)
+	if !InverseIterate(a, b, theta, scale, s, d, du, dl, du2) {
+		return theta, false
+	}
+	return theta, true
+}
+
+// InverseIterate writes into s (length k = len(a) ≥ 2) the unit eigenvector
+// of the symmetric tridiagonal matrix with diagonal a and off-diagonal b
+// for the eigenvalue estimate theta, by two steps of inverse iteration from
+// the all-ones vector with the tridiagonal elimination with partial
+// pivoting of LAPACK's xGTSV (Golub & Van Loan 2013, §8.4); scale is the
+// largest magnitude of the entries (it sizes the guard against a zero
+// pivot), d, du, dl, du2 are scratch of length k. It reports false if the
+// iteration broke down.
+func InverseIterate(a, b []float64, theta, scale float64, s, d, du, dl, du2 []float64) bool {
+	k := len(a)
 	for i := range s {
 		s[i] = 1
 	}
-	tiny := 1e-300 + 1e-15*scale
+	tiny := 1e-300 + float64(1e-15*scale)
 	for pass := 0; pass < 2; pass++ {
 		for i := 0; i < k; i++ {
 			d[i] = a[i] - theta
@@ -234,40 +239,54 @@ func topTridiag(a, b, s []float64) (float64, bool) {
 					d[i] = tiny
 				}
 				f := dl[i] / d[i]
-				d[i+1] -= f * du[i]
-				s[i+1] -= f * s[i]
+				d[i+1] -= float64(f * du[i])
+				s[i+1] -= float64(f * s[i])
 			} else {
 				f := d[i] / dl[i]
 				d[i] = dl[i]
 				t := d[i+1]
-				d[i+1] = du[i] - f*t
+				d[i+1] = du[i] - float64(f*t)
 				if i < k-2 {
 					du2[i] = du[i+1]
-					du[i+1] = -f * du2[i]
+					du[i+1] = -float64(f * du2[i])
 				}
 				du[i] = t
-				s[i], s[i+1] = s[i+1], s[i]-f*s[i+1]
+				s[i], s[i+1] = s[i+1], s[i]-float64(f*s[i+1])
 			}
 		}
 		if d[k-1] == 0 {
 			d[k-1] = tiny
 		}
 		s[k-1] /= d[k-1]
-		s[k-2] = (s[k-2] - du[k-2]*s[k-1]) / d[k-2]
+		s[k-2] = (s[k-2] - float64(du[k-2]*s[k-1])) / d[k-2]
 		for i := k - 3; i >= 0; i-- {
-			s[i] = (s[i] - du[i]*s[i+1] - du2[i]*s[i+2]) / d[i]
+			s[i] = (s[i] - float64(du[i]*s[i+1]) - float64(du2[i]*s[i+2])) / d[i]
 		}
-		var nr float64
-		for _, v := range s {
-			nr += v * v
+		nr := Norm(s)
+		if !(nr > 0) || math.IsInf(nr, 0) || math.IsNaN(nr) {
+			return false
 		}
-		nr = math.Sqrt(nr)
-		if !(nr > 0) || math.IsInf(nr, 0) {
-			return theta, false
-		}
-		for i := range s {
-			s[i] /= nr
-		}
+		Scale(s, 1/nr)
 	}
-	return theta, true
+	return true
+}
+
+// TridiagGershgorin returns the Gershgorin interval [lo, hi] of the
+// symmetric tridiagonal matrix with diagonal a and off-diagonal b: every
+// eigenvalue lies in it (in exact arithmetic; an estimate's bracket).
+func TridiagGershgorin(a, b []float64) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	k := len(a)
+	for i := 0; i < k; i++ {
+		r := 0.0
+		if i > 0 {
+			r += math.Abs(b[i-1])
+		}
+		if i < k-1 {
+			r += math.Abs(b[i])
+		}
+		lo = math.Min(lo, a[i]-r)
+		hi = math.Max(hi, a[i]+r)
+	}
+	return lo, hi
 }

@@ -63,13 +63,13 @@ func MinEigLowerStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 			}
 		}
 	}
-	return minEigLowerDense(full, n, guess, stop)
+	return minEigLowerDense(full, n, guess, stop, nil)
 }
 
 // minEigLowerDense is MinEigLower for a full symmetric row-major matrix,
 // which it may not modify. If stop is non-nil and reports true, the test is
 // abandoned and the Gershgorin bound (valid, maybe loose) returned.
-func minEigLowerDense(full []float64, n int, guess float64, stop func() bool) float64 {
+func minEigLowerDense(full []float64, n int, guess float64, stop func() bool, work []float64) float64 {
 	var rowMax float64
 	for i := 0; i < n; i++ {
 		var r float64
@@ -89,7 +89,10 @@ func minEigLowerDense(full []float64, n int, guess float64, stop func() bool) fl
 		return 0 // the zero matrix: all eigenvalues are exactly 0
 	}
 	margin := float64(4*float64(n+1)*accurate.U*rowMax) + 0x1p-1000
-	work := make([]float64, n*n)
+	if len(work) < n*n {
+		work = make([]float64, n*n)
+	}
+	work = work[:n*n]
 	best := gersh
 	for try := 0; try < 12; try++ {
 		s := guess - margin
@@ -109,6 +112,52 @@ func minEigLowerDense(full []float64, n int, guess float64, stop func() bool) fl
 		margin *= 16
 	}
 	return best
+}
+
+// Workspace holds the buffers of MaxEigUpperTri and MinEigLowerTri (two
+// n×n arrays, grown on first use), for callers that test many matrices
+// (branch-and-bound's cells). The zero value is ready; not safe for
+// concurrent use.
+type Workspace struct{ full, work []float64 }
+
+func (w *Workspace) size(n int) ([]float64, []float64) {
+	if len(w.full) < n*n {
+		w.full, w.work = make([]float64, n*n), make([]float64, n*n)
+	}
+	return w.full[:n*n], w.work[:n*n]
+}
+
+// MaxEigUpperTri is MaxEigUpper for the symmetric n×n matrix given by the
+// upper triangle (j ≥ i) of the row-major a, with the caller's workspace:
+// the same operations in the same order, so the same bound bit for bit.
+func MaxEigUpperTri(a []float64, n int, guess float64, ws *Workspace) float64 {
+	if n == 0 {
+		return math.Inf(-1)
+	}
+	full, work := ws.size(n)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			v := -a[i*n+j]
+			full[i*n+j], full[j*n+i] = v, v
+		}
+	}
+	return -minEigLowerDense(full, n, -guess, nil, work)
+}
+
+// MinEigLowerTri is MinEigLower for the upper triangle of a, as
+// MaxEigUpperTri.
+func MinEigLowerTri(a []float64, n int, guess float64, ws *Workspace) float64 {
+	if n == 0 {
+		return math.Inf(1)
+	}
+	full, work := ws.size(n)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			v := a[i*n+j]
+			full[i*n+j], full[j*n+i] = v, v
+		}
+	}
+	return minEigLowerDense(full, n, guess, nil, work)
 }
 
 // MaxEigUpper returns a proven upper bound on λmax(A), by MinEigLower(−A).
@@ -134,7 +183,7 @@ func MaxEigUpperStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 				full[i*n+j], full[j*n+i] = v, v
 			}
 		}
-		return -minEigLowerDense(full, n, -guess, stop)
+		return -minEigLowerDense(full, n, -guess, stop, nil)
 	}
 	return -MinEigLower(negated{a}, -guess)
 }
