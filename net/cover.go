@@ -213,7 +213,10 @@ func cellBounds(ctx context.Context, w *subspace.Subspace, c *Cover) (fbar, rad 
 		packed = newUpperForm(s.form)
 	}
 	workers := runtime.GOMAXPROCS(0)
-	type buffers struct{ centre, mat, acc []float64 }
+	type buffers struct {
+		centre, mat, acc []float64
+		chol             cholWork // the verified test's workspace, reused across cells
+	}
 	bufs := make([]buffers, workers)
 	for k := range bufs {
 		bufs[k].centre = make([]float64, d)
@@ -228,7 +231,7 @@ func cellBounds(ctx context.Context, w *subspace.Subspace, c *Cover) (fbar, rad 
 		cc := &c.Cells[i]
 		cl := cell{face: cc.Face, lo: cc.Lo, hi: cc.Hi}
 		cl.centre(bufs[k].centre, d)
-		fbar[i] = s.checkBound(bufs[k].centre, cc.Guess, packed, bufs[k].mat, bufs[k].acc)
+		fbar[i] = s.checkBound(bufs[k].centre, cc.Guess, packed, bufs[k].mat, bufs[k].acc, &bufs[k].chol)
 		rad[i] = cl.radius()
 	})
 	return fbar, rad, err
@@ -238,8 +241,9 @@ func cellBounds(ctx context.Context, w *subspace.Subspace, c *Cover) (fbar, rad 
 // allocation of its own): the same proven bound, from the same sums in the
 // same order, computed only in the upper triangle the verified test reads
 // (through packed, the blocks' packed upper triangles, when given; else
-// BlockForm.assembleUpper). buf is p×p, acc holds packed.t entries.
-func (s *side) checkBound(c []float64, raw float64, packed *upperForm, buf, acc []float64) float64 {
+// BlockForm.assembleUpper). buf is p×p, acc holds packed.t entries, w the
+// verified test's workspace (bit for bit the allocating test's bound).
+func (s *side) checkBound(c []float64, raw float64, packed *upperForm, buf, acc []float64, w *cholWork) float64 {
 	if s.form == nil {
 		return s.bound(c, raw)
 	}
@@ -251,7 +255,7 @@ func (s *side) checkBound(c []float64, raw float64, packed *upperForm, buf, acc 
 	} else {
 		a, delta = s.form.assembleUpper(c, buf)
 	}
-	return s.normalised(c, s.form.upper(c, a, delta, sumSqEst(c), raw))
+	return s.normalised(c, s.form.upperWith(c, a, delta, sumSqEst(c), raw, w))
 }
 
 // upperForm holds the upper triangles (j ≥ i) of a block form's blocks,

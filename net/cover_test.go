@@ -442,12 +442,13 @@ func TestCheckBoundMatchesSearch(t *testing.T) {
 		buf := make([]float64, s.p*s.p)
 		packed := newUpperForm(s.form)
 		acc := make([]float64, packed.t)
+		var cw cholWork
 		for trial := 0; trial < 10; trial++ {
 			c := reference.RandUnit(rng, s.d)
 			v := make([]float64, s.p)
 			_, up, raw := s.value(c, v)
 			for _, pk := range []*upperForm{packed, nil} {
-				got := s.checkBound(c, raw, pk, buf, acc)
+				got := s.checkBound(c, raw, pk, buf, acc, &cw)
 				switch {
 				case runtime.GOARCH == "amd64" && got != up:
 					t.Errorf("%s (packed %v): checkBound %v, value's bound %v (want bit for bit on amd64)", in.Name, pk != nil, got, up)

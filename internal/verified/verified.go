@@ -70,18 +70,36 @@ func MinEigLowerStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 // which it may not modify. If stop is non-nil and reports true, the test is
 // abandoned and the Gershgorin bound (valid, maybe loose) returned.
 func minEigLowerDense(full []float64, n int, guess float64, stop func() bool, work []float64) float64 {
-	var rowMax float64
+	// One pass: the finiteness check, the largest absolute row sum (for
+	// the margin) and the Gershgorin bound min_i(a_ii − Σ_{j≠i}|a_ij|),
+	// proven with one correction for the whole matrix (derived here): the
+	// float off-diagonal sum r̃_i of n − 1 nonnegative terms has
+	// |r̃_i − r_i| ≤ γ_{n−2}r_i ≤ 2γ_n r̃_i (r_i ≤ r̃_i/(1 − γ), γ ≤ 1/2),
+	// and t̃_i = fl(a_ii − r̃_i) errs by at most u|t̃_i| (exact when
+	// subnormal; sums of nonnegative subnormals are exact too), so
+	// a_ii − r_i ≥ min_j t̃_j − u·max_j|t̃_j| − 2γ_n·max_j r̃_j, and
+	// (n + 1)·Tiny more covers any underflow, as UpperRel does.
+	var rowMax, maxR, maxT float64
+	minT := math.Inf(1)
 	for i := 0; i < n; i++ {
-		var r float64
-		for _, v := range full[i*n : (i+1)*n] {
+		var r, off float64
+		for j, v := range full[i*n : (i+1)*n] {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return math.Inf(-1)
 			}
-			r += math.Abs(v)
+			av := math.Abs(v)
+			r += av
+			if j != i {
+				off += av
+			}
 		}
 		rowMax = math.Max(rowMax, r)
+		t := full[i*n+i] - off
+		minT, maxT, maxR = math.Min(minT, t), math.Max(maxT, math.Abs(t)), math.Max(maxR, off)
 	}
-	gersh := gershgorin(full, n)
+	corr := accurate.AddUp(accurate.MulUp(accurate.U, maxT), accurate.MulUp(2*accurate.Gamma(n), maxR))
+	corr = accurate.AddUp(corr, float64(float64(n+1)*accurate.Tiny))
+	gersh := accurate.Down(minT - corr)
 	if math.IsNaN(guess) || math.IsInf(guess, 0) {
 		guess = gersh
 	}
@@ -241,20 +259,4 @@ func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float6
 		return 0, false
 	}
 	return accurate.Down(s - c), true
-}
-
-// gershgorin returns min_i (a_ii − Σ_{j≠i} |a_ij|), rounded downwards.
-func gershgorin(a []float64, n int) float64 {
-	lb := math.Inf(1)
-	for i := 0; i < n; i++ {
-		var r float64
-		for j := 0; j < n; j++ {
-			if j != i {
-				r += math.Abs(a[i*n+j])
-			}
-		}
-		r = accurate.UpperRel(r, n)
-		lb = math.Min(lb, accurate.Down(a[i*n+i]-r))
-	}
-	return lb
 }
