@@ -49,13 +49,10 @@ func MinEigLowerStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 	}
 	full := make([]float64, n*n)
 	if sd, ok := a.(*mat.SymDense); ok {
+		// The upper triangle, as MinEigLowerTri (the same bound bit for bit).
 		raw := sd.RawSymmetric()
-		for i := 0; i < n; i++ {
-			for j := i; j < n; j++ {
-				v := raw.Data[i*raw.Stride+j]
-				full[i*n+j], full[j*n+i] = v, v
-			}
-		}
+		var ws Workspace
+		return ws.tri(raw.Data, n, raw.Stride, 1, guess, stop)
 	} else {
 		for i := 0; i < n; i++ {
 			for j := 0; j < n; j++ {
@@ -97,9 +94,23 @@ func minEigLowerDense(full []float64, n int, guess float64, stop func() bool, wo
 		t := full[i*n+i] - off
 		minT, maxT, maxR = math.Min(minT, t), math.Max(maxT, math.Abs(t)), math.Max(maxR, off)
 	}
+	return minEigLowerFrom(full, n, guess, stop, work, rowMax, gershgorinFrom(n, minT, maxT, maxR))
+}
+
+// gershgorinFrom is the proven Gershgorin bound from the float row data
+// (derivation on minEigLowerDense): min_i t̃_i − u·max|t̃_i| − 2γ_n·max r̃_i
+// − (n + 1)·Tiny, rounded down.
+func gershgorinFrom(n int, minT, maxT, maxR float64) float64 {
 	corr := accurate.AddUp(accurate.MulUp(accurate.U, maxT), accurate.MulUp(2*accurate.Gamma(n), maxR))
 	corr = accurate.AddUp(corr, float64(float64(n+1)*accurate.Tiny))
-	gersh := accurate.Down(minT - corr)
+	return accurate.Down(minT - corr)
+}
+
+// minEigLowerFrom is the rest of minEigLowerDense once the matrix is known
+// finite, with its largest absolute row sum (which only sizes the shift)
+// and its proven Gershgorin bound. It reads only the lower triangle and the
+// diagonal of full.
+func minEigLowerFrom(full []float64, n int, guess float64, stop func() bool, work []float64, rowMax, gersh float64) float64 {
 	if math.IsNaN(guess) || math.IsInf(guess, 0) {
 		guess = gersh
 	}
@@ -136,30 +147,62 @@ func minEigLowerDense(full []float64, n int, guess float64, stop func() bool, wo
 // n×n arrays, grown on first use), for callers that test many matrices
 // (branch-and-bound's cells). The zero value is ready; not safe for
 // concurrent use.
-type Workspace struct{ full, work []float64 }
+type Workspace struct{ full, work, sums []float64 }
 
 func (w *Workspace) size(n int) ([]float64, []float64) {
 	if len(w.full) < n*n {
-		w.full, w.work = make([]float64, n*n), make([]float64, n*n)
+		w.full, w.work, w.sums = make([]float64, n*n), make([]float64, n*n), make([]float64, 2*n)
 	}
 	return w.full[:n*n], w.work[:n*n]
 }
 
+// tri runs the test on sign·A for A the upper triangle of a: one pass over
+// the triangle writes the lower triangle of full (all the Cholesky test
+// reads) and the row sums of |sign·A| (each entry counted in its row and
+// its column), from which the Gershgorin bound follows as in
+// minEigLowerDense (any order of the nonnegative sums: the same bound).
+func (w *Workspace) tri(a []float64, n, stride int, sign, guess float64, stop func() bool) float64 {
+	full, work := w.size(n)
+	r, off := w.sums[:n], w.sums[n:2*n]
+	clear(r)
+	clear(off)
+	for i := 0; i < n; i++ {
+		row := a[i*stride : i*stride+n]
+		for j := i; j < n; j++ {
+			v := sign * row[j]
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return math.Inf(-1)
+			}
+			full[j*n+i] = v
+			av := math.Abs(v)
+			r[i] += av
+			if j != i {
+				r[j] += av
+				off[i] += av
+				off[j] += av
+			}
+		}
+	}
+	var rowMax, maxR, maxT float64
+	minT := math.Inf(1)
+	for i := 0; i < n; i++ {
+		t := full[i*n+i] - off[i]
+		rowMax = math.Max(rowMax, r[i])
+		minT, maxT, maxR = math.Min(minT, t), math.Max(maxT, math.Abs(t)), math.Max(maxR, off[i])
+	}
+	return minEigLowerFrom(full, n, guess, stop, work, rowMax, gershgorinFrom(n, minT, maxT, maxR))
+}
+
 // MaxEigUpperTri is MaxEigUpper for the symmetric n×n matrix given by the
 // upper triangle (j ≥ i) of the row-major a, with the caller's workspace:
-// the same operations in the same order, so the same bound bit for bit.
+// the same operations in the same order as MaxEigUpper on a *mat.SymDense
+// (both go through the same one-pass routine), so the same bound bit for
+// bit.
 func MaxEigUpperTri(a []float64, n int, guess float64, ws *Workspace) float64 {
 	if n == 0 {
 		return math.Inf(-1)
 	}
-	full, work := ws.size(n)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			v := -a[i*n+j]
-			full[i*n+j], full[j*n+i] = v, v
-		}
-	}
-	return -minEigLowerDense(full, n, -guess, nil, work)
+	return -ws.tri(a, n, n, -1, -guess, nil)
 }
 
 // MinEigLowerTri is MinEigLower for the upper triangle of a, as
@@ -168,14 +211,7 @@ func MinEigLowerTri(a []float64, n int, guess float64, ws *Workspace) float64 {
 	if n == 0 {
 		return math.Inf(1)
 	}
-	full, work := ws.size(n)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			v := a[i*n+j]
-			full[i*n+j], full[j*n+i] = v, v
-		}
-	}
-	return minEigLowerDense(full, n, guess, nil, work)
+	return ws.tri(a, n, n, 1, guess, nil)
 }
 
 // MaxEigUpper returns a proven upper bound on λmax(A), by MinEigLower(−A).
@@ -193,15 +229,10 @@ func MaxEigUpperStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 		if n == 0 {
 			return math.Inf(-1)
 		}
+		// The upper triangle, as MaxEigUpperTri (the same bound bit for bit).
 		raw := sd.RawSymmetric()
-		full := make([]float64, n*n)
-		for i := 0; i < n; i++ {
-			for j := i; j < n; j++ {
-				v := -raw.Data[i*raw.Stride+j]
-				full[i*n+j], full[j*n+i] = v, v
-			}
-		}
-		return -minEigLowerDense(full, n, -guess, stop, nil)
+		var ws Workspace
+		return -ws.tri(raw.Data, n, raw.Stride, -1, -guess, stop)
 	}
 	return -MinEigLower(negated{a}, -guess)
 }
