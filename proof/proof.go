@@ -707,7 +707,7 @@ func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 		}
 		// ReadArray: these arrays are only read (a cover of millions of
 		// cells must not be refused for an orthonormalisation it never
-		// gets), and cost no more than the member's bytes.
+		// gets), and cost at most about twice the member's bytes.
 		in, err := subspace.ReadArray(b)
 		if err != nil {
 			return nil, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)

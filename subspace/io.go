@@ -180,6 +180,23 @@ func checkShape(r, m, n int64, maxBytes int64) (int, error) {
 	return checkShapeField(r, m, n, maxBytes, false)
 }
 
+// checkArrayShape checks that an array of r×m×n entries (16 bytes each
+// when complex, else 8) fits in maxBytes, without overflow.
+func checkArrayShape(r, m, n int64, maxBytes int64, complex bool) (int, error) {
+	if r <= 0 || m <= 0 || n <= 0 {
+		return 0, fmt.Errorf("%w: shape (%d, %d, %d) has a zero or negative size", ErrFormat, r, m, n)
+	}
+	item := int64(8)
+	if complex {
+		item = 16
+	}
+	lim := maxBytes / item
+	if r > lim || m > lim || n > lim || m*n > lim || r > lim/(m*n) {
+		return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than %d bytes", ErrTooLarge, r, m, n, maxBytes)
+	}
+	return int(r * m * n), nil
+}
+
 // checkShapeField is checkShape for real (complex false) or complex data:
 // a complex entry takes 16 bytes, and NewComplex orthonormalises 2r real
 // vectors of 2mn entries and stores W” of 2k vectors of 4mn entries.
@@ -212,10 +229,14 @@ func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 // that only read it and never orthonormalise it (proof files' certificates
 // and branch-and-bound cells): no room is reserved for an
 // orthonormalisation, and the declared shape is checked against len(data)
-// before anything is allocated, so the array costs no more than data
-// itself. The checks of the format are ReadNPY's.
+// and the decoded size against 2·len(data) + 1 MiB before anything is
+// allocated. The checks of the format are ReadNPY's.
 func ReadArray(data []byte) (Input, error) {
-	return readNPYInput(bytes.NewReader(data), math.MaxInt64/4, int64(len(data)))
+	// The decoded array (8 or 16 bytes an entry) may be at most twice the
+	// bytes given (+1 MiB): 8-byte reals and 16-byte complex entries cost
+	// what they take in the file, 4-byte floats twice; narrower integer
+	// dtypes of a large shape are refused before allocating.
+	return readNPYData(bytes.NewReader(data), 2*int64(len(data))+1<<20, int64(len(data)), true)
 }
 
 // ReadNPY reads a basis from NumPy .npy data. maxBytes (0 means
@@ -245,6 +266,12 @@ func realOnly(in Input, err error) (Basis, error) {
 // readNPYInput reads real or complex .npy data (complex64 and complex128
 // are read as pairs of components, real part first, as NumPy stores them).
 func readNPYInput(rd io.Reader, maxBytes, size int64) (Input, error) {
+	return readNPYData(rd, maxBytes, size, false)
+}
+
+// readNPYData is readNPYInput; with readOnly set, maxBytes bounds the
+// decoded array alone (no orthonormalisation follows).
+func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, error) {
 	var pre [8]byte
 	if _, err := io.ReadFull(rd, pre[:]); err != nil {
 		return Input{}, readFailure(err, "npy: truncated preamble")
@@ -294,7 +321,12 @@ func readNPYInput(rd io.Reader, maxBytes, size int64) (Input, error) {
 	if err != nil {
 		return Input{}, err
 	}
-	total, err := checkShapeField(r, m, n, maxBytes, parts == 2)
+	var total int
+	if readOnly {
+		total, err = checkArrayShape(r, m, n, maxBytes, parts == 2)
+	} else {
+		total, err = checkShapeField(r, m, n, maxBytes, parts == 2)
+	}
 	if err != nil {
 		return Input{}, err
 	}

@@ -530,4 +530,19 @@ func TestReadArray(t *testing.T) {
 	if _, err := ReadArray(cut); err == nil {
 		t.Error("a truncated array was accepted")
 	}
+	// One-byte integers decode to 8-byte floats: a large int8 array would
+	// cost 8× its bytes, and is refused before allocating (found by the
+	// final review: 16 MB of zeros, compressed in a proof file, allocated
+	// 170 MB).
+	hdr := "{'descr': '|i1', 'fortran_order': False, 'shape': (4194304, 1), }"
+	for (10+len(hdr)+1)%64 != 0 {
+		hdr += " "
+	}
+	hdr += "\n"
+	raw := append([]byte("\x93NUMPY\x01\x00"), byte(len(hdr)), byte(len(hdr)>>8))
+	raw = append(raw, hdr...)
+	raw = append(raw, make([]byte, 4194304)...)
+	if _, err := ReadArray(raw); !errors.Is(err, ErrTooLarge) {
+		t.Errorf("int8 array of 4 MiB: %v, want ErrTooLarge", err)
+	}
 }

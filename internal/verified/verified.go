@@ -47,17 +47,16 @@ func MinEigLowerStop(a mat.Symmetric, guess float64, stop func() bool) float64 {
 	if n == 0 {
 		return math.Inf(1)
 	}
-	full := make([]float64, n*n)
 	if sd, ok := a.(*mat.SymDense); ok {
 		// The upper triangle, as MinEigLowerTri (the same bound bit for bit).
 		raw := sd.RawSymmetric()
 		var ws Workspace
 		return ws.tri(raw.Data, n, raw.Stride, 1, guess, stop)
-	} else {
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				full[i*n+j] = a.At(i, j)
-			}
+	}
+	full := make([]float64, n*n)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			full[i*n+j] = a.At(i, j)
 		}
 	}
 	return minEigLowerDense(full, n, guess, stop, nil)
