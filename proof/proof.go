@@ -387,14 +387,10 @@ func CheckInput(ctx context.Context, p *Proof, in *subspace.Input, inputBytes []
 		return c, fmt.Errorf("%w: stored basis: %v", ErrClaim, err)
 	}
 	c.OrthogonalityBound = w.OrthogonalityBound()
-	var input *subspace.Basis
-	if in != nil && !cplx {
-		if in.Field != subspace.Real {
+	if in != nil {
+		if !cplx && in.Field != subspace.Real {
 			return c, fmt.Errorf("%w: complex data for a proof about a real subspace", ErrInput)
 		}
-		input = &in.Real
-	}
-	if in != nil && cplx {
 		if inputBytes != nil && f.InputSHA256 != "" {
 			sum := sha256.Sum256(inputBytes)
 			if got := hex.EncodeToString(sum[:]); got != f.InputSHA256 {
@@ -402,34 +398,20 @@ func CheckInput(ctx context.Context, p *Proof, in *subspace.Input, inputBytes []
 			}
 			c.HashChecked = true
 		}
-		cb := in.AsComplex()
-		if cb.Rows != f.Rows/2 || cb.Cols != f.Cols/2 {
-			return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d complex ones", ErrInput, cb.Rows, cb.Cols, f.Rows/2, f.Cols/2)
-		}
-		c.InputChecked = true
-		th, err := subspace.ComplexInputDistance(ctx, cb, w)
-		switch {
-		case err == nil:
-			c.InputDistance = th
-		case errors.Is(err, subspace.ErrDependent) || errors.Is(err, subspace.ErrUnproven) || errors.Is(err, subspace.ErrTooLarge):
-			c.InputNote = err.Error()
-		default:
-			return c, fmt.Errorf("%w: %v", ErrInput, err)
-		}
-	}
-	if input != nil {
-		if f.InputSHA256 != "" && inputBytes != nil {
-			sum := sha256.Sum256(inputBytes)
-			if got := hex.EncodeToString(sum[:]); got != f.InputSHA256 {
-				return c, fmt.Errorf("%w: the input's SHA-256 is %s, the proof is about %s", ErrClaim, got, f.InputSHA256)
+		var th float64
+		if cplx {
+			cb := in.AsComplex()
+			if cb.Rows != f.Rows/2 || cb.Cols != f.Cols/2 {
+				return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d complex ones", ErrInput, cb.Rows, cb.Cols, f.Rows/2, f.Cols/2)
 			}
-			c.HashChecked = true
-		}
-		if input.Rows != f.Rows || input.Cols != f.Cols {
-			return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d", ErrInput, input.Rows, input.Cols, f.Rows, f.Cols)
+			th, err = subspace.ComplexInputDistance(ctx, cb, w)
+		} else {
+			if in.Real.Rows != f.Rows || in.Real.Cols != f.Cols {
+				return c, fmt.Errorf("%w: the input holds %d×%d matrices, the proof is about %d×%d", ErrInput, in.Real.Rows, in.Real.Cols, f.Rows, f.Cols)
+			}
+			th, err = subspace.InputDistance(ctx, in.Real, w)
 		}
 		c.InputChecked = true
-		th, err := subspace.InputDistance(ctx, *input, w)
 		switch {
 		case err == nil:
 			c.InputDistance = th

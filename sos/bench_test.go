@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"os/exec"
@@ -45,17 +46,7 @@ func BenchmarkLevelOne(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		path := filepath.Join(b.TempDir(), "p.dat-s")
-		var buf bytes.Buffer
-		rel.WriteSDPA(&buf)
-		os.WriteFile(path, buf.Bytes(), 0o644)
-		b.Run(fmt.Sprintf("n%d", n), func(b *testing.B) {
-			ours, theirs, ratio, rel := alternate(b, bin, path, rel.Problem)
-			b.ReportMetric(ours, "ours-s")
-			b.ReportMetric(theirs, "csdp-s")
-			b.ReportMetric(ratio, "ratio")
-			b.ReportMetric(rel, "reldiff")
-		})
+		versusCSDP(b, bin, fmt.Sprintf("n%d", n), rel.Problem, rel.WriteSDPA)
 	}
 }
 
@@ -129,18 +120,29 @@ func BenchmarkLevelOneComplex(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		path := filepath.Join(b.TempDir(), "c.dat-s")
-		var buf bytes.Buffer
-		rel.WriteSDPA(&buf)
-		os.WriteFile(path, buf.Bytes(), 0o644)
-		b.Run(fmt.Sprintf("n%d", n), func(b *testing.B) {
-			ours, theirs, ratio, rel := alternate(b, bin, path, rel.Problem)
-			b.ReportMetric(ours, "ours-s")
-			b.ReportMetric(theirs, "csdp-s")
-			b.ReportMetric(ratio, "ratio")
-			b.ReportMetric(rel, "reldiff")
-		})
+		versusCSDP(b, bin, fmt.Sprintf("n%d", n), rel.Problem, rel.WriteSDPA)
 	}
+}
+
+// versusCSDP writes the SDPA file of p (by write) and runs the
+// sub-benchmark name: our solver against CSDP on that file (alternate),
+// reporting "ours-s", "csdp-s", "ratio" and "reldiff".
+func versusCSDP(b *testing.B, bin, name string, p sdp.Problem, write func(io.Writer) error) {
+	path := filepath.Join(b.TempDir(), "p.dat-s")
+	var buf bytes.Buffer
+	if err := write(&buf); err != nil {
+		b.Fatal(err)
+	}
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		b.Fatal(err)
+	}
+	b.Run(name, func(b *testing.B) {
+		ours, theirs, ratio, rel := alternate(b, bin, path, p)
+		b.ReportMetric(ours, "ours-s")
+		b.ReportMetric(theirs, "csdp-s")
+		b.ReportMetric(ratio, "ratio")
+		b.ReportMetric(rel, "reldiff")
+	})
 }
 
 // alternate runs our solver and CSDP alternately five times on one thread

@@ -95,11 +95,7 @@ func (w *Subspace) SearchHOperator(x []float64) *Operator {
 	o := w.cx.ops(w)
 	m, n, k := o.m, o.n, o.k
 	op := &Operator{z: make([]float64, 2*k*2*n), s: 2 * k, p: 2 * n, shift: dot(x, x)}
-	u1 := append(append([]float64(nil), x[:m]...), x[m:]...) // (x_r, x_i)
-	u2 := make([]float64, 2*m)                               // (x_i, −x_r)
-	for i := 0; i < m; i++ {
-		u2[i], u2[m+i] = x[m+i], -x[i]
-	}
+	u1, u2 := xPair(x, m)
 	er, ei := make([]float64, n), make([]float64, n)
 	const r2 = 0x1.6a09e667f3bcdp-01
 	for t := 0; t < k; t++ {
@@ -113,6 +109,18 @@ func (w *Subspace) SearchHOperator(x []float64) *Operator {
 		}
 	}
 	return op
+}
+
+// xPair returns (x_r, x_i) and (x_i, −x_r) for X = (x_r, x_i) of length
+// 2m: with a block [A_t; B_t], [A; B]ᵀ of them are the real and imaginary
+// parts of U_t*x (see SearchHOperator).
+func xPair(x []float64, m int) (u1, u2 []float64) {
+	u1, u2 = make([]float64, 2*m), make([]float64, 2*m)
+	for i := 0; i < m; i++ {
+		u1[i], u1[m+i] = x[i], x[m+i]
+		u2[i], u2[m+i] = x[m+i], -x[i]
+	}
+	return u1, u2
 }
 
 // SearchPartialTrace1 is ApplyPartialTrace1 for a local search: for a
@@ -130,11 +138,7 @@ func (w *Subspace) SearchPartialTrace1(dst, x []float64) {
 	w.checkX(dst, "dst")
 	o := w.cx.ops(w)
 	m, n := o.m, o.n
-	u1, u2 := make([]float64, 2*m), make([]float64, 2*m) // (x_r, x_i), (x_i, −x_r)
-	for i := 0; i < m; i++ {
-		u1[i], u1[m+i] = x[i], x[m+i]
-		u2[i], u2[m+i] = x[m+i], -x[i]
-	}
+	u1, u2 := xPair(x, m)
 	er, ei := make([]float64, n), make([]float64, n)
 	pr, pi := make([]float64, 2*m), make([]float64, 2*m)
 	clear(dst)
@@ -246,23 +250,5 @@ func (w *Subspace) SearchProject(dst, a []float64) {
 // SearchProject (for a complex subspace, from the complex basis at half the
 // data; equal to Gradient up to rounding). It panics on wrong lengths.
 func (w *Subspace) SearchGradient(gx, gy, x, y, buf []float64) float64 {
-	if w.cx == nil {
-		return w.Gradient(gx, gy, x, y, buf)
-	}
-	w.checkX(x, "x")
-	w.checkY(y, "y")
-	w.checkX(gx, "gx")
-	w.checkY(gy, "gy")
-	L := w.m * w.n
-	if buf == nil {
-		buf = make([]float64, L)
-	} else if len(buf) != L {
-		panic("subspace: SearchGradient's matrix buffer must have length m·n")
-	}
-	kron(buf, x, y)
-	w.SearchProject(buf, buf)
-	mm := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: buf}
-	blas64.Gemv(blas.NoTrans, 2, mm, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: gx, Inc: 1})
-	blas64.Gemv(blas.Trans, 2, mm, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: gy, Inc: 1})
-	return dot(gx, x) / 2
+	return w.gradientWith(gx, gy, x, y, buf, w.SearchProject)
 }

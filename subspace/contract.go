@@ -138,6 +138,12 @@ func (w *Subspace) Project(dst, a []float64) {
 // If buf is non-nil it must have length mn and receives vec(M).
 // It panics on wrong lengths.
 func (w *Subspace) Gradient(gx, gy, x, y, buf []float64) float64 {
+	return w.gradientWith(gx, gy, x, y, buf, w.Project)
+}
+
+// gradientWith is Gradient with the projection given (Project, or
+// SearchProject for SearchGradient).
+func (w *Subspace) gradientWith(gx, gy, x, y, buf []float64, project func(dst, a []float64)) float64 {
 	w.checkX(x, "x")
 	w.checkY(y, "y")
 	w.checkX(gx, "gx")
@@ -149,7 +155,7 @@ func (w *Subspace) Gradient(gx, gy, x, y, buf []float64) float64 {
 		panic("subspace: Gradient's matrix buffer must have length m·n")
 	}
 	kron(buf, x, y)
-	w.Project(buf, buf)
+	project(buf, buf)
 	mm := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: buf}
 	blas64.Gemv(blas.NoTrans, 2, mm, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.m, Data: gx, Inc: 1})
 	blas64.Gemv(blas.Trans, 2, mm, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: gy, Inc: 1})

@@ -54,19 +54,10 @@ func run(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("recheck", flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
 	path := fs.String("proof", "", "the proof file")
-	bad := func(format string, a ...any) int {
-		fmt.Fprintf(stderr, "recheck: "+format+"\n", a...)
-		return 2
-	}
-	rest, err := cli.Parse(fs, args)
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			fmt.Fprintln(stderr, usage)
-			fs.SetOutput(stderr)
-			fs.PrintDefaults()
-			return 0
-		}
-		return bad("%v", err)
+	bad := badFunc(stderr, "recheck")
+	rest, code, ok := parse(fs, args, stderr, bad)
+	if !ok {
+		return code
 	}
 	if *path == "" {
 		return bad("-proof FILE is required")
@@ -167,25 +158,42 @@ func printPart(stdout io.Writer, p *proof.Proof, c proof.Confirmed) {
 	fmt.Fprintln(stdout, "  whole    a part proves no Lower alone: join all parts with recheck merge")
 }
 
+// badFunc returns the reporter of bad usage or input: one line on stderr
+// prefixed with the command's name, exit code 2.
+func badFunc(stderr io.Writer, name string) func(string, ...any) int {
+	return func(format string, a ...any) int {
+		fmt.Fprintf(stderr, name+": "+format+"\n", a...)
+		return 2
+	}
+}
+
+// parse parses the flags (after the positional arguments too, cli.Parse);
+// on -h it prints the usage and returns exit code 0, on an error bad's
+// code, with ok false either way.
+func parse(fs *flag.FlagSet, args []string, stderr io.Writer, bad func(string, ...any) int) (rest []string, code int, ok bool) {
+	rest, err := cli.Parse(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintln(stderr, usage)
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
+			return nil, 0, false
+		}
+		return nil, bad("%v", err), false
+	}
+	return rest, 0, true
+}
+
 // runMerge is recheck merge -out WHOLE PART...: read every part, let
 // proof.Merge check that they make a whole, write the whole proof.
 func runMerge(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("recheck merge", flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
 	out := fs.String("out", "", "the whole proof to write")
-	bad := func(format string, a ...any) int {
-		fmt.Fprintf(stderr, "recheck merge: "+format+"\n", a...)
-		return 2
-	}
-	files, err := cli.Parse(fs, args)
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			fmt.Fprintln(stderr, usage)
-			fs.SetOutput(stderr)
-			fs.PrintDefaults()
-			return 0
-		}
-		return bad("%v", err)
+	bad := badFunc(stderr, "recheck merge")
+	files, code, ok := parse(fs, args, stderr, bad)
+	if !ok {
+		return code
 	}
 	if *out == "" {
 		return bad("-out WHOLE is required")
@@ -195,6 +203,7 @@ func runMerge(args []string, stdout, stderr io.Writer) int {
 	}
 	parts := make([]*proof.Proof, len(files))
 	for i, name := range files {
+		var err error
 		if parts[i], err = proof.ReadFile(name); err != nil {
 			return bad("%s: %s", name, oneLine(err))
 		}
