@@ -2,6 +2,8 @@
 
 package subspace
 
+import "github.com/segre-lab/segre/internal/cpufeat"
+
 // The amd64 kernels (kernel_amd64.s): the dot product and axpy of the
 // factorisation's panels (AVX2, fused), and the tile of the blocked products
 // (gemm.go), 4×12 with AVX2 or 4×24 with AVX-512, each with fused
@@ -43,38 +45,16 @@ func dotAsm(n int, x, y *float64) float64
 //go:noescape
 func axpyAsm(n int, alpha float64, x, y *float64)
 
-func cpuidSub(eaxArg, ecxArg uint32) (eax, ebx, ecx, edx uint32)
-
-func xgetbvSub() (eax, edx uint32)
-
-// detectTile returns the best tile this machine runs: AVX-512F with the
-// opmask and ZMM state enabled (bits 5–7 of XCR0), else AVX2 and FMA with
-// the YMM state enabled (OSXSAVE, bits 1–2 of XCR0), as the Intel 64 and
-// IA-32 Architectures Software Developer's Manual (vol. 1, §14.3 and
-// §15.2) prescribes, else the portable tile.
+// detectTile returns the best tile this machine runs: AVX-512, else AVX2
+// with FMA, else the portable tile (internal/cpufeat).
 func detectTile() int {
-	maxLeaf, _, _, _ := cpuidSub(0, 0)
-	if maxLeaf < 7 {
-		return tileGo
-	}
-	_, _, c1, _ := cpuidSub(1, 0)
-	const fma, osxsave, avx = 1 << 12, 1 << 27, 1 << 28
-	if c1&fma == 0 || c1&osxsave == 0 || c1&avx == 0 {
-		return tileGo
-	}
-	xcr0, _ := xgetbvSub()
-	if xcr0&6 != 6 {
-		return tileGo
-	}
-	_, b7, _, _ := cpuidSub(7, 0)
-	const avx2, avx512f = 1 << 5, 1 << 16
-	if b7&avx2 == 0 {
-		return tileGo
-	}
-	if b7&avx512f != 0 && xcr0&0xe0 == 0xe0 {
+	switch {
+	case cpufeat.AVX512F():
 		return tileAVX512
+	case cpufeat.AVX2FMA():
+		return tileAVX2
 	}
-	return tileAVX2
+	return tileGo
 }
 
 // tileKind is the tile in use; bestTile the best this machine runs (tests

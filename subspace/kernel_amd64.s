@@ -2,25 +2,6 @@
 
 #include "textflag.h"
 
-// func cpuidSub(eaxArg, ecxArg uint32) (eax, ebx, ecx, edx uint32)
-TEXT ·cpuidSub(SB), NOSPLIT, $0-24
-	MOVL eaxArg+0(FP), AX
-	MOVL ecxArg+4(FP), CX
-	CPUID
-	MOVL AX, eax+8(FP)
-	MOVL BX, ebx+12(FP)
-	MOVL CX, ecx+16(FP)
-	MOVL DX, edx+20(FP)
-	RET
-
-// func xgetbvSub() (eax, edx uint32)
-TEXT ·xgetbvSub(SB), NOSPLIT, $0-8
-	MOVL $0, CX
-	XGETBV
-	MOVL AX, eax+0(FP)
-	MOVL DX, edx+4(FP)
-	RET
-
 // One step l of the tile: three vectors of b (12 columns), each row's
 // a-entry broadcast, twelve fused multiply-adds into Y0–Y11.
 #define STEP(aoff, boff) \
