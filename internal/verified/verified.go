@@ -142,6 +142,69 @@ func minEigLowerFrom(full []float64, n int, guess float64, stop func() bool, wor
 	return best
 }
 
+// cholPair computes rows i and i+1 of L̃ (rows < i done) in place in l and
+// returns their pivots before the square root, or ok = false if either
+// pivot is not a positive finite number (row i's is tested first). The
+// operations on each entry are the one-at-a-time form's (shiftedCholesky).
+func cholPair(l []float64, n, i int) (d0, d1 float64, ok bool) {
+	ri, ri1 := l[i*n:i*n+i+1], l[(i+1)*n:(i+1)*n+i+2]
+	j := 0
+	for ; j+1 < i; j += 2 {
+		rj, rj1 := l[j*n:j*n+j], l[(j+1)*n:(j+1)*n+j+1]
+		v00, v01, v10, v11 := ri[j], ri[j+1], ri1[j], ri1[j+1]
+		a0, a1 := ri[:j], ri1[:j]
+		b1 := rj1[:j]
+		for k, b0 := range rj {
+			x0, x1, y1 := a0[k], a1[k], b1[k]
+			v00 -= float64(x0 * b0)
+			v01 -= float64(x0 * y1)
+			v10 -= float64(x1 * b0)
+			v11 -= float64(x1 * y1)
+		}
+		ljj, lj1 := l[j*n+j], l[(j+1)*n+j+1]
+		v00 /= ljj
+		v10 /= ljj
+		v01 -= float64(v00 * rj1[j]) // the term k = j of entry (·, j+1)
+		v11 -= float64(v10 * rj1[j])
+		v01 /= lj1
+		v11 /= lj1
+		ri[j], ri[j+1], ri1[j], ri1[j+1] = v00, v01, v10, v11
+	}
+	if j < i { // one column left, j = i − 1
+		rj := l[j*n : j*n+j]
+		v0, v1 := ri[j], ri1[j]
+		a0, a1 := ri[:j], ri1[:j]
+		for k, b := range rj {
+			v0 -= float64(a0[k] * b)
+			v1 -= float64(a1[k] * b)
+		}
+		ljj := l[j*n+j]
+		ri[j], ri1[j] = v0/ljj, v1/ljj
+	}
+	// Row i's pivot, entry (i+1, i), and row i+1's pivot up to its term k = i.
+	d0, v, d1 := ri[i], ri1[i], ri1[i+1]
+	a0, a1 := ri[:i], ri1[:i]
+	for k, x := range a0 {
+		y := a1[k]
+		d0 -= float64(x * x)
+		v -= float64(y * x)
+		d1 -= float64(y * y)
+	}
+	if !(d0 > 0) || math.IsInf(d0, 0) {
+		return 0, 0, false
+	}
+	lii := math.Sqrt(d0)
+	ri[i] = lii
+	v /= lii
+	ri1[i] = v
+	d1 -= float64(v * v)
+	if !(d1 > 0) || math.IsInf(d1, 0) {
+		return 0, 0, false
+	}
+	ri1[i+1] = math.Sqrt(d1)
+	return d0, d1, true
+}
+
 // Workspace holds the buffers of MaxEigUpperTri and MinEigLowerTri (two
 // n×n arrays, grown on first use), for callers that test many matrices
 // (branch-and-bound's cells). The zero value is ready; not safe for
@@ -157,36 +220,42 @@ func (w *Workspace) size(n int) ([]float64, []float64) {
 
 // tri runs the test on sign·A for A the upper triangle of a: one pass over
 // the triangle writes the lower triangle of full (all the Cholesky test
-// reads) and the row sums of |sign·A| (each entry counted in its row and
-// its column), from which the Gershgorin bound follows as in
-// minEigLowerDense (any order of the nonnegative sums: the same bound).
+// reads) and the off-diagonal absolute row sums of sign·A (each entry
+// counted in its row and its column), from which the Gershgorin bound
+// follows as in minEigLowerDense (its derivation holds for any order of
+// the nonnegative sums). The largest absolute row sum, which only sizes the
+// Cholesky test's margin, is taken as max_i(off_i + |a_ii|) in plain
+// arithmetic. A non-finite entry is caught by v − v ≠ 0 (0 exactly for
+// every finite v, NaN for ±Inf and NaN).
 func (w *Workspace) tri(a []float64, n, stride int, sign, guess float64, stop func() bool) float64 {
 	full, work := w.size(n)
-	r, off := w.sums[:n], w.sums[n:2*n]
-	clear(r)
+	off := w.sums[:n]
 	clear(off)
 	for i := 0; i < n; i++ {
 		row := a[i*stride : i*stride+n]
-		for j := i; j < n; j++ {
-			v := sign * row[j]
-			if math.IsNaN(v) || math.IsInf(v, 0) {
+		v := float64(sign * row[i]) // sign is ±1: exact; written rounded all the same
+		if !(v-v == 0) {
+			return math.Inf(-1)
+		}
+		full[i*n+i] = v
+		var si float64
+		for j := i + 1; j < n; j++ {
+			v := float64(sign * row[j])
+			if !(v-v == 0) {
 				return math.Inf(-1)
 			}
 			full[j*n+i] = v
 			av := math.Abs(v)
-			r[i] += av
-			if j != i {
-				r[j] += av
-				off[i] += av
-				off[j] += av
-			}
+			si += av
+			off[j] += av
 		}
+		off[i] += si
 	}
 	var rowMax, maxR, maxT float64
 	minT := math.Inf(1)
 	for i := 0; i < n; i++ {
 		t := full[i*n+i] - off[i]
-		rowMax = math.Max(rowMax, r[i])
+		rowMax = math.Max(rowMax, off[i]+math.Abs(full[i*n+i]))
 		minT, maxT, maxR = math.Min(minT, t), math.Max(maxT, math.Abs(t)), math.Max(maxR, off[i])
 	}
 	return minEigLowerFrom(full, n, guess, stop, work, rowMax, gershgorinFrom(n, minT, maxT, maxR))
@@ -242,7 +311,21 @@ func (m negated) At(i, j int) float64 { return -m.Symmetric.At(i, j) }
 func (m negated) T() mat.Matrix       { return m }
 
 // shiftedCholesky runs the test described on MinEigLower for shift s and
-// returns the proven bound on success.
+// returns the proven bound on success. a holds the matrix's lower triangle
+// and diagonal (row-major n×n; the rest is not read), l is an n×n buffer
+// that receives L̃ in its lower triangle.
+//
+// The factorisation is the row-by-row (left-looking) one, computed two
+// rows and two columns at a time (cholPair) so that four independent inner
+// products run side by side instead of one chain of dependent
+// subtractions. Each entry still sees the same operations in the same order
+// as one row and one entry at a time: L̃_ij = fl((a_ij − fl(L̃_i0 L̃_j0) − …
+// − fl(L̃_i,j−1 L̃_j,j−1)) / L̃_jj), subtracting k = 0, 1, … in turn, and
+// pivot i is fl(a_ii − s) − L̃_i0² − … in the same order; every product is
+// rounded before its subtraction (float64 forbids fusing it). So the
+// factor, the pivots, the row at which a pivot fails, and ‖L̃‖_F² (summed
+// in row order: the off-diagonal squares of row i, then its pivot) are bit
+// for bit those of the one-at-a-time form (TestCholeskyFormsAgree).
 func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float64, bool) {
 	var maxDiag float64
 	for i := 0; i < n; i++ {
@@ -253,26 +336,40 @@ func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float6
 		l[i*n+i] = d
 		maxDiag = math.Max(maxDiag, math.Abs(d))
 	}
-	var frob float64 // Σ L̃ᵢⱼ², evaluated in floating point
+	var frob float64 // Σ L̃ᵢⱼ², evaluated in floating point in row order
 	var maxL float64
-	for i := 0; i < n; i++ {
-		if stop != nil && i%16 == 15 && stop() {
+	i := 0
+	for ; i+1 < n; i += 2 {
+		if stop != nil && i%16 == 14 && stop() {
 			return 0, false
 		}
+		d0, d1, ok := cholPair(l, n, i)
+		if !ok {
+			return 0, false
+		}
+		for r, d := range [2]float64{d0, d1} {
+			for _, v := range l[(i+r)*n : (i+r)*n+i+r] {
+				frob += float64(v * v)
+			}
+			frob += d
+		}
+		maxL = math.Max(maxL, math.Max(l[i*n+i], l[(i+1)*n+i+1]))
+	}
+	if i < n { // the last row when n is odd
 		ri := l[i*n : i*n+i+1]
 		for j := 0; j < i; j++ {
 			rj := l[j*n : j*n+j]
 			v := ri[j]
-			for k := range rj {
-				v -= float64(ri[k] * rj[k])
+			for k, b := range rj {
+				v -= float64(ri[k] * b)
 			}
 			v /= l[j*n+j]
 			ri[j] = v
 			frob += float64(v * v)
 		}
 		d := ri[i]
-		for k := 0; k < i; k++ {
-			d -= float64(ri[k] * ri[k])
+		for _, v := range ri[:i] {
+			d -= float64(v * v)
 		}
 		if !(d > 0) || math.IsInf(d, 0) {
 			return 0, false
@@ -281,6 +378,15 @@ func shiftedCholesky(a, l []float64, n int, s float64, stop func() bool) (float6
 		frob += d
 		maxL = math.Max(maxL, ri[i])
 	}
+	return choleskyBound(n, s, frob, maxDiag, maxL)
+}
+
+// choleskyBound is the end of the test described on MinEigLower, once the
+// factorisation of fl(A − sI) has succeeded: s − γ_{n+1}‖L̃‖_F² − δ_d − δ_u
+// rounded downwards, from the float sum frob of the squares of L̃, the
+// largest |Ã_ii| (maxDiag) and the largest L̃_ii (maxL). ok is false when
+// the correction overflows.
+func choleskyBound(n int, s, frob, maxDiag, maxL float64) (float64, bool) {
 	frobUp := accurate.UpperRel(frob, n*n+n+2)
 	c := accurate.MulUp(accurate.Gamma(n+1), frobUp)
 	c = accurate.AddUp(c, accurate.MulUp(2*accurate.U, maxDiag))
