@@ -636,18 +636,24 @@ func coverArray(c *net.Cover) subspace.Basis {
 }
 
 // Read reads a proof archive of size bytes from ra. Malformed or truncated
-// archives and members give an error wrapping ErrFormat.
+// archives and members give an error wrapping ErrFormat, as do members that
+// would decompress to more than subspace.DefaultMaxBytes together.
 func Read(ra io.ReaderAt, size int64) (*Proof, error) {
 	z, err := zip.NewReader(ra, size)
 	if err != nil {
 		return nil, fmt.Errorf("%w: %v", ErrFormat, err)
 	}
+	// The members read together may decompress to at most the library's
+	// default memory limit (the limit Check rebuilds the basis under);
+	// archive/zip refuses a member longer than its declared size.
+	var left = uint64(subspace.DefaultMaxBytes)
 	get := func(name string) ([]byte, bool, error) {
 		for _, f := range z.File {
 			if f.Name == name {
-				if f.UncompressedSize64 > 1<<32 {
-					return nil, true, fmt.Errorf("%w: member %s is too large", ErrFormat, name)
+				if f.UncompressedSize64 > left {
+					return nil, true, fmt.Errorf("%w: member %s (%d bytes) would take the members read past the memory limit of %d bytes", ErrFormat, name, f.UncompressedSize64, subspace.DefaultMaxBytes)
 				}
+				left -= f.UncompressedSize64
 				rc, err := f.Open()
 				if err != nil {
 					return nil, true, fmt.Errorf("%w: %s: %v", ErrFormat, name, err)
