@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"sync"
 	"time"
 
@@ -29,9 +30,11 @@ import (
 // Lower it has proved by then).
 const maxBranchBoundSide = 5
 
-// maxSOSSize is the largest m·n for which the level-one relaxation joins
-// (measured: m·n = 64 solves in about 2 s, m·n = 100 in about 15 s).
-const maxSOSSize = 64
+// maxSOSSize is the largest m·n for which the interior-point level one
+// is on the ladder (the cost model then decides whether it fits in the
+// time left; measured: m·n = 64 in 0.15 s, m·n = 100 in 1.9 s); above it
+// the first-order form takes its place.
+const maxSOSSize = 100
 
 // maxFirstOrderSize is the largest m·n for which the first-order level-one
 // route (sos.FirstOrder) joins when the interior-point one does not fit
@@ -43,13 +46,12 @@ const maxSOSSize = 64
 const maxFirstOrderSize = 1024
 
 // maxLevelTwoOrder is the largest order m·n(n+1)/2 of the level-two
-// relaxation for which it joins (measured with sos.BenchmarkLevelTwo:
-// 4×4, order 40, well under a second; 5×5, order 75, a few seconds; 6×6,
-// order 126, about 30 s, beyond the default budget). It runs beside level
-// one because level one is weak exactly where level two is needed
+// relaxation on the ladder (6×6 is order 126, 7×7 order 196); the cost
+// model decides whether it fits in the time left. Level two is on the
+// ladder because level one is weak exactly where it is needed
 // (PPT-invariant projectors such as the UPB complements, where level one
 // proves nothing).
-const maxLevelTwoOrder = 80
+const maxLevelTwoOrder = 200
 
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
@@ -57,40 +59,88 @@ const maxLevelTwoOrder = 80
 // machine (sos.BenchmarkLevelOneComplex).
 const maxComplexSOSSize = 25
 
-// Plan returns the members Certify runs on w with these options, in the
-// order their outcomes are reported: the flattening bound, the three local
-// methods from Options.Starts starts each, branch-and-bound when
-// min(m, n) ≤ 5 (for a complex subspace: the phase-reduced sphere of
-// dimension 2·min(m, n) − 1 ≤ 5), and the level-one sum-of-squares
-// relaxation when m·n ≤ 64 (for a complex subspace its PPT form, when
-// m·n ≤ 25), by the first-order method when 64 < m·n ≤ 1024, and level
-// two when its order m·n(n+1)/2 ≤ 80 (real; thresholds measured, see the
-// README).
+// Plan returns the members Certify may run on w with these options, in
+// the order their outcomes are reported. First those that run side by side
+// from the start: the flattening bound, the three local methods from
+// Options.Starts starts each, and branch-and-bound when its sphere is small
+// (net.SideDimension ≤ 5). Then the ladder of bounds, run one after the
+// other while the gap is open, each only when the cost model predicts it
+// fits in the time left (see Certify): the level-one relaxation (its
+// interior-point form; for a real subspace too large for it, the
+// first-order form up to m·n = 1024), then for a real subspace the
+// level-two relaxation, or, when level two does not fit, the two-copy
+// eigenvalue bound, and last branch-and-bound on a larger sphere, which
+// proves what it can by the deadline. When Options.Members is set, Plan
+// returns it and Certify runs all of it side by side.
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {
 		return opt.Members
 	}
+	conc, lad := planned(w, opt)
+	for _, st := range lad {
+		conc = append(conc, st.s)
+	}
+	return conc
+}
+
+// rung is one bound of Certify's ladder.
+type rung struct {
+	s rankone.Searcher
+	// predict is the predicted time to run it (for an anytime bound, to
+	// its first useful step).
+	predict time.Duration
+	// skipIf, when set, is checked with the time left just before the
+	// rung would start; a non-empty answer skips it with that reason (not
+	// for lack of budget).
+	skipIf func(left time.Duration) string
+}
+
+// planned splits Plan into the members that run side by side from the
+// start and the ladder.
+func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []rung) {
 	st, seed := opt.starts(), opt.Seed
-	members := []rankone.Searcher{
+	conc = []rankone.Searcher{
 		rankone.Flattening{},
 		&rankone.MultiStart{Method: &rankone.TrustRegion{}, Starts: st, Seed: seed, Workers: 1},
 		&rankone.MultiStart{Method: &rankone.ALS{}, Starts: st, Seed: seed + 1, Workers: 1},
 		&rankone.MultiStart{Method: &rankone.Power{}, Starts: st, Seed: seed + 2, Workers: 1},
 	}
-	if net.SideDimension(w) <= maxBranchBoundSide {
-		members = append(members, &net.BranchBound{Gap: opt.gap()})
+	small := net.SideDimension(w) <= maxBranchBoundSide
+	if small {
+		conc = append(conc, &net.BranchBound{Gap: opt.gap()})
 	}
-	if cm, cn := w.ComplexShape(); w.Field() == subspace.Complex && cm*cn <= maxComplexSOSSize {
-		members = append(members, &sos.Bound{})
-	} else if L := w.Rows() * w.Cols(); w.Field() == subspace.Real && L <= maxSOSSize {
-		members = append(members, &sos.Bound{})
-	} else if w.Field() == subspace.Real && L <= maxFirstOrderSize {
-		members = append(members, &sos.FirstOrder{})
+	real := w.Field() == subspace.Real
+	m, n := w.Rows(), w.Cols()
+	L := m * n
+	switch {
+	case !real:
+		if cm, cn := w.ComplexShape(); cm*cn <= maxComplexSOSSize {
+			lad = append(lad, rung{s: &sos.Bound{}, predict: predictLevelOne(w)})
+		}
+	case L <= maxSOSSize:
+		lad = append(lad, rung{s: &sos.Bound{}, predict: predictLevelOne(w)})
+	case L <= maxFirstOrderSize:
+		lad = append(lad, rung{s: &sos.FirstOrder{}, predict: predictFirstOrderStep(w)})
 	}
-	if m, n := w.Rows(), w.Cols(); w.Field() == subspace.Real && m*n*(n+1)/2 <= maxLevelTwoOrder {
-		members = append(members, &sos.LevelTwo{})
+	if real {
+		two := predictLevelTwo(w)
+		fits2 := m*n*(n+1)/2 <= maxLevelTwoOrder
+		if _, ok := twoCopyOrder(w); ok {
+			lad = append(lad, rung{s: &sos.TwoCopy{}, predict: predictTwoCopy(w), skipIf: func(left time.Duration) string {
+				if fits2 && two <= left {
+					return "level two, stronger, fits in the time left"
+				}
+				return ""
+			}})
+		}
+		if fits2 {
+			lad = append(lad, rung{s: &sos.LevelTwo{}, predict: two})
+		}
 	}
-	return members
+	if !small {
+		lad = append(lad, rung{s: &net.BranchBound{Gap: opt.gap()}})
+	}
+	return conc, lad
 }
 
 // hooked sets a member's progress callback when it has one of the known
@@ -125,12 +175,33 @@ func hooked(s rankone.Searcher, fn func(rankone.Progress)) {
 // caller's context ends the search (then with the best valid bounds so far
 // and Stop = Cancelled); a member that fails is reported in Members and
 // contributes nothing.
+//
+// Budgeted escalation. The members of Plan that start at once (the
+// flattening, the local searches, branch-and-bound on a small sphere) run
+// side by side; beside them one goroutine climbs the ladder of bounds in
+// order (level one, the two-copy bound or level two, branch-and-bound on a
+// larger sphere). A rung starts only while the gap is open and when the
+// cost model (cost.go: a power law in the size that drives each bound,
+// fitted to BenchmarkCostModel) predicts it fits in the time left; the
+// first-order level one and branch-and-bound keep what they have proven at
+// the deadline, so they start whenever their first step fits. A rung not
+// started is reported with Member.Skipped saying why. So Certify returns
+// before its budget only when the gap is met or when every bound that
+// applies has run to its end (Stop = NothingMore); a bound skipped for lack
+// of time makes the stop BudgetSpent.
 func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, error) {
 	if err := opt.check(); err != nil {
 		return Report{}, err
 	}
 	begin := time.Now()
-	members := Plan(w, opt)
+	conc, lad := opt.Members, []rung(nil)
+	if conc == nil {
+		conc, lad = planned(w, opt)
+	}
+	members := slices.Clone(conc)
+	for _, st := range lad {
+		members = append(members, st.s)
+	}
 	var cover *net.Cover
 	var cert *sos.Certificate
 	var zcert *sos.ComplexCertificate
@@ -174,19 +245,56 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		complex: w.Field() == subspace.Complex}
 	m.report(Progress{Phase: Searching}, true)
 	outs := make([]Member, len(members))
+	run := func(i int, s rankone.Searcher) {
+		r, err := s.Search(sctx, w)
+		outs[i] = Member{Name: rankone.NameOf(s), Result: r, Err: err}
+		if err == nil || isContextErr(err) {
+			m.final(r)
+		}
+	}
 	var wg sync.WaitGroup
 	for i, s := range members {
 		hooked(s, func(p rankone.Progress) { m.member(p) })
+		if i >= len(conc) {
+			continue
+		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			r, err := s.Search(sctx, w)
-			outs[i] = Member{Name: rankone.NameOf(s), Result: r, Err: err}
-			if err == nil || isContextErr(err) {
-				m.final(r)
-			}
+			run(i, s)
 		}()
 	}
+	// The ladder: one bound at a time beside the searches, each started
+	// only while the gap is open and when the cost model predicts it fits
+	// in the time left (see Certify).
+	var budgetSkipped bool
+	deadline, _ := rctx.Deadline()
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		for j, st := range lad {
+			i := len(conc) + j
+			skip := ""
+			left := time.Until(deadline)
+			switch {
+			case m.isMet():
+				skip = "not started: the interval had met the gap"
+			case sctx.Err() != nil:
+				skip = "not started: the search had ended"
+				budgetSkipped = budgetSkipped || ctx.Err() == nil
+			case st.predict > left:
+				skip = fmt.Sprintf("not started: predicted %s, %s left", roundDuration(st.predict), roundDuration(left))
+				budgetSkipped = true
+			case st.skipIf != nil:
+				skip = st.skipIf(left)
+			}
+			if skip != "" {
+				outs[i] = Member{Name: rankone.NameOf(st.s), Result: rankone.TrivialResult(w, rankone.NameOf(st.s)), Skipped: skip}
+				continue
+			}
+			run(i, st.s)
+		}
+	}()
 	wg.Wait()
 
 	entries := make([]rankone.Entry, len(outs))
@@ -252,7 +360,7 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		rep.Stop = GapReached
 	case ctx.Err() != nil:
 		rep.Stop = Cancelled
-	case rctx.Err() != nil:
+	case rctx.Err() != nil || budgetSkipped:
 		rep.Stop = BudgetSpent
 	default:
 		rep.Stop = NothingMore
@@ -265,6 +373,22 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		return rep, ctx.Err()
 	}
 	return rep, nil
+}
+
+// roundDuration rounds d for a message: to 10 ms below a second, else to
+// 100 ms.
+func roundDuration(d time.Duration) time.Duration {
+	if d < time.Second {
+		return d.Round(10 * time.Millisecond)
+	}
+	return d.Round(100 * time.Millisecond)
+}
+
+// isMet reports whether the merged interval has met the gap.
+func (m *merger) isMet() bool {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	return m.met
 }
 
 func isContextErr(err error) bool {

@@ -4,7 +4,9 @@
 // witness (x, y) at distance at most Upper.
 //
 // Certify chooses its strategies (members) from the size of the problem,
-// runs them concurrently under a time budget, merges their certified
+// runs the searches concurrently and climbs a ladder of bounds, each
+// started when a measured cost model predicts it fits in the time left,
+// all under one time budget; it merges their certified
 // bounds (the smallest Upper with its witness, the largest Lower), and
 // stops as soon as the merged interval meets the requested gap. Every
 // bound comes from a member that proves it (see package rankone for the
@@ -111,8 +113,9 @@ const (
 	GapReached Stop = iota + 1
 	// BudgetSpent: the time budget ran out first.
 	BudgetSpent
-	// NothingMore: every member finished without meeting the gap; more
-	// time would not have helped these members.
+	// NothingMore: every member finished without meeting the gap and
+	// every bound of the ladder ran to its end (none was skipped for lack
+	// of time); more time would not have helped these members.
 	NothingMore
 	// Cancelled: the caller's context ended the search.
 	Cancelled
@@ -171,6 +174,10 @@ type Member struct {
 	// Stopped reports that Certify stopped the member early because the
 	// interval had met the gap (its Result is still valid).
 	Stopped bool
+	// Skipped, when not empty, says why a bound of the ladder did not run
+	// (the gap was met, the time left was less than its predicted cost, or
+	// a stronger bound fitted); its Result is then the trivial one.
+	Skipped string
 }
 
 // InputSpan is the certified interval for the span V of the matrices as

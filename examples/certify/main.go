@@ -337,6 +337,7 @@ type jsonSearcher struct {
 	Upper   number `json:"upper"`
 	Status  string `json:"status"`
 	Stopped bool   `json:"stopped"`
+	Skipped string `json:"skipped,omitempty"`
 	Error   string `json:"error,omitempty"`
 	Seconds number `json:"seconds"`
 }
@@ -389,7 +390,7 @@ func writeJSON(stdout io.Writer, w *subspace.Subspace, rep segre.Report, source 
 	}
 	for _, m := range rep.Members {
 		js := jsonSearcher{Name: m.Name, Lower: number(m.Result.Lower), Upper: number(m.Result.Upper),
-			Status: m.Result.Status.String(), Stopped: m.Stopped, Seconds: number(m.Result.Elapsed.Seconds())}
+			Status: m.Result.Status.String(), Stopped: m.Stopped, Skipped: m.Skipped, Seconds: number(m.Result.Elapsed.Seconds())}
 		if m.Err != nil {
 			js.Error = oneLine(m.Err)
 		}
@@ -460,13 +461,22 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 			st = "failed"
 		case m.Stopped:
 			st = "stopped at gap"
+		case m.Skipped != "":
+			st = "not run"
 		}
 		fmt.Fprintf(out, "%-28s %14s %14s %16s %9.3f\n", m.Name, down(m.Result.Lower, 8), up(m.Result.Upper, 8), st, m.Result.Elapsed.Seconds())
 	}
+	var notes []string
 	for _, m := range rep.Members {
 		if m.Err != nil {
-			fmt.Fprintf(out, "%s failed: %s\n", m.Name, oneLine(m.Err))
+			notes = append(notes, fmt.Sprintf("%s failed: %s", m.Name, oneLine(m.Err)))
 		}
+		if m.Skipped != "" {
+			notes = append(notes, fmt.Sprintf("%s: %s", m.Name, m.Skipped))
+		}
+	}
+	if len(notes) > 0 {
+		fmt.Fprintf(out, "\n%s\n", strings.Join(notes, "\n"))
 	}
 }
 

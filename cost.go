@@ -1,0 +1,87 @@
+package segre
+
+import (
+	"math"
+	"time"
+
+	"github.com/segre-lab/segre/subspace"
+)
+
+// The cost model of Certify's ladder: the predicted wall time of each
+// bound from its size, a power law a·N^p in the size N that drives the
+// bound's cost, fitted to BenchmarkCostModel's measurements on this
+// project's 2-core machine (Gaussian subspaces of dimension mn/2; the
+// figures, the command and the date are in the README's section on
+// Certify). A prediction only decides whether a bound is worth starting
+// with the time left; a wrong one wastes time or skips a bound, it never
+// changes what is proven (every bound is checked as always, and a bound
+// stopped by the deadline keeps what it has proven, or returns the trivial
+// bound).
+
+// powerLaw is a·N^p seconds.
+type powerLaw struct{ a, p float64 }
+
+func (c powerLaw) at(n int) time.Duration {
+	s := c.a * math.Pow(float64(n), c.p)
+	if s > 1e6 {
+		s = 1e6
+	}
+	return time.Duration(s * float64(time.Second))
+}
+
+var (
+	// costLevelOne: the interior-point level one, N = m·n (SDP order).
+	costLevelOne = powerLaw{8.5e-12, 5.67}
+	// costLevelOneComplex: the complex (PPT) level one, N = m·n over C.
+	costLevelOneComplex = powerLaw{4.7e-7, 3.84}
+	// costFirstOrderStep: one iteration of the first-order level one (a
+	// dense eigendecomposition of order N = m·n).
+	costFirstOrderStep = powerLaw{3.7e-9, 3.0}
+	// costLevelTwo: the interior-point level two, N = m·n(n+1)/2.
+	costLevelTwo = powerLaw{1.2e-8, 3.97}
+	// costTwoCopy: the two-copy eigenvalue bound, N = the order of its
+	// matrix (twoCopyOrder).
+	costTwoCopy = powerLaw{7.3e-11, 3.1}
+)
+
+// firstOrderProbe is the number of first-order iterations
+// BenchmarkCostModel times. The ladder starts the first-order level one
+// when one iteration fits in the time left: it never starts an iteration
+// that would end after the deadline, and keeps the best bound it has
+// verified by then.
+const firstOrderProbe = 20
+
+func predictLevelOne(w *subspace.Subspace) time.Duration {
+	if w.Field() == subspace.Complex {
+		cm, cn := w.ComplexShape()
+		return costLevelOneComplex.at(cm * cn)
+	}
+	return costLevelOne.at(w.Rows() * w.Cols())
+}
+
+func predictFirstOrderStep(w *subspace.Subspace) time.Duration {
+	return costFirstOrderStep.at(w.Rows() * w.Cols())
+}
+
+func predictLevelTwo(w *subspace.Subspace) time.Duration {
+	m, n := w.Rows(), w.Cols()
+	return costLevelTwo.at(m * n * (n + 1) / 2)
+}
+
+// twoCopyOrder is the order of the matrix sos.EigenBound works on: k·n
+// (k stored vectors) when W is stored and k·n ≤ 4096, else m·n(n+1)/2,
+// which it accepts up to 2500; ok is false beyond.
+func twoCopyOrder(w *subspace.Subspace) (order int, ok bool) {
+	st := w.Stored()
+	m, n := w.Rows(), w.Cols()
+	if !st.Complement() && st.Count()*n <= 4096 {
+		return st.Count() * n, true
+	}
+	order = m * n * (n + 1) / 2
+	return order, order <= 2500
+}
+
+func predictTwoCopy(w *subspace.Subspace) time.Duration {
+	order, _ := twoCopyOrder(w)
+	return costTwoCopy.at(order)
+}

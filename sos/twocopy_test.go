@@ -1,0 +1,32 @@
+package sos
+
+import (
+	"context"
+	"errors"
+	"testing"
+
+	"github.com/segre-lab/segre/rankone/suite"
+)
+
+// TwoCopy reports EigenBound as a certified Lower: on the antisymmetric
+// subspace the bound is h* ≤ 3/4 (TestEigenBoundAntisymmetric's value), so
+// Lower = √(1 − 3/4) = 1/2 rounded down (derived: d = √(1 − h)), below
+// d* = √(1/2) (suite.Antisymmetric's derivation); its Upper is a valid
+// witness's. A complex subspace is refused with ErrTooLarge.
+func TestTwoCopySearcher(t *testing.T) {
+	in := suite.Antisymmetric(4)
+	r, err := (&TwoCopy{}).Search(context.Background(), mustNew(t, in))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Lower > 0.5 || r.Lower < 0.5-1e-8 || r.LowerBy != (&TwoCopy{}).Name() {
+		t.Errorf("Lower %.17g by %q, want 1/2 rounded down", r.Lower, r.LowerBy)
+	}
+	if r.Upper < in.Optimum-1e-12 || r.X == nil {
+		t.Errorf("Upper %g below d* %g, or no witness", r.Upper, in.Optimum)
+	}
+	w := suite.MustNewComplex(t, suite.PencilIJ())
+	if r, err := (&TwoCopy{}).Search(context.Background(), w); !errors.Is(err, ErrTooLarge) || r.Lower != 0 {
+		t.Errorf("complex: %v, Lower %g", err, r.Lower)
+	}
+}
