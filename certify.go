@@ -30,6 +30,13 @@ import (
 // Lower it has proved by then).
 const maxBranchBoundSide = 5
 
+// maxLadderBranchBoundSide is the largest sphere dimension for which
+// branch-and-bound is on the ladder: each split of a cell makes 2^(D−1)
+// cells, so beyond about 12 not even one level of refinement below the
+// flattening bound fits in any budget users run (and at 32 the search
+// refuses: 2^31 cells per split exceed its frontier limit).
+const maxLadderBranchBoundSide = 12
+
 // maxSOSSize is the largest m·n for which the interior-point level one
 // is on the ladder (the cost model then decides whether it fits in the
 // time left; measured: m·n = 64 in 0.15 s, m·n = 100 in 1.9 s); above it
@@ -69,7 +76,7 @@ const maxComplexSOSSize = 25
 // interior-point form; for a real subspace too large for it, the
 // first-order form up to m·n = 1024), then for a real subspace the
 // level-two relaxation, or, when level two does not fit, the two-copy
-// eigenvalue bound, and last branch-and-bound on a larger sphere, which
+// eigenvalue bound, and last branch-and-bound on a larger sphere (up to 12), which
 // proves what it can by the deadline. When Options.Members is set, Plan
 // returns it and Certify runs all of it side by side.
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
@@ -137,8 +144,8 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 			lad = append(lad, rung{s: &sos.LevelTwo{}, predict: two})
 		}
 	}
-	if !small {
-		lad = append(lad, rung{s: &net.BranchBound{Gap: opt.gap()}})
+	if d := net.SideDimension(w); !small && d <= maxLadderBranchBoundSide {
+		lad = append(lad, rung{s: &net.BranchBound{Gap: opt.gap()}, predict: predictBranchBoundSetup(w)})
 	}
 	return conc, lad
 }
