@@ -5,6 +5,8 @@ import (
 	"errors"
 	"testing"
 
+	"github.com/segre-lab/segre/rankone"
+	"github.com/segre-lab/segre/rankone/searchtest"
 	"github.com/segre-lab/segre/rankone/suite"
 )
 
@@ -29,4 +31,10 @@ func TestTwoCopySearcher(t *testing.T) {
 	if r, err := (&TwoCopy{}).Search(context.Background(), w); !errors.Is(err, ErrTooLarge) || r.Lower != 0 {
 		t.Errorf("complex: %v, Lower %g", err, r.Lower)
 	}
+}
+
+// TwoCopy passes the conformance suite (no accuracy claim: it searches for
+// no witness) on the closed-form instances.
+func TestTwoCopyConformance(t *testing.T) {
+	searchtest.Run(t, func() rankone.Searcher { return &TwoCopy{} }, searchtest.Options{})
 }

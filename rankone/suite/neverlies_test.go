@@ -149,6 +149,9 @@ func TestNeverLies(t *testing.T) {
 		if m*n <= 9 && i%10 == 0 {
 			searchers = append(searchers, &sos.LevelTwo{})
 		}
+		if i%3 == 1 {
+			searchers = append(searchers, &sos.TwoCopy{})
+		}
 		bs := intervals(ctx, w, searchers)
 		if i%3 == 0 {
 			if hb, err := sos.EigenBound(context.Background(), w); err == nil {
