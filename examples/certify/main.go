@@ -20,6 +20,7 @@ import (
 	"math"
 	"os"
 	"os/signal"
+	"runtime/debug"
 	"strconv"
 	"strings"
 	"time"
@@ -42,6 +43,13 @@ const (
 )
 
 func main() {
+	// Memory: the input, the stored basis and the searches' operators are
+	// large and long-lived, and the garbage collector's default lets the
+	// heap grow to twice what is live before it collects. A quarter
+	// (measured on 256 matrices of 64×64: peak 36.6 MB with the default,
+	// 26.2 MB with 25, the input being 8.4 MB) keeps the peak near what is
+	// live; the search allocates little, so the cost in time is small.
+	debug.SetGCPercent(25)
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
 }
 
