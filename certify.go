@@ -73,8 +73,10 @@ const maxComplexSOSSize = 25
 // (net.SideDimension ≤ 5). Then the ladder of bounds, run one after the
 // other while the gap is open, each only when the cost model predicts it
 // fits in the time left (see Certify): the level-one relaxation (its
-// interior-point form; for a real subspace too large for it, the
-// first-order form up to m·n = 1024), then for a real subspace the
+// interior-point form up to m·n = 100 for a real subspace, or 25 for a
+// complex one; for a real subspace, the first-order form up to
+// m·n = 1024 when the interior-point one is too large or does not fit in
+// the time left), then for a real subspace the
 // level-two relaxation, or, when level two does not fit, the two-copy
 // eigenvalue bound, and last branch-and-bound on a larger sphere (up to 12), which
 // proves what it can by the deadline. When Options.Members is set, Plan
@@ -96,10 +98,10 @@ type rung struct {
 	// predict is the predicted time to run it (for an anytime bound, to
 	// its first useful step).
 	predict time.Duration
-	// skipIf, when set, is checked with the time left just before the
-	// rung would start; a non-empty answer skips it with that reason (not
-	// for lack of budget).
-	skipIf func(left time.Duration) string
+	// skipIf, when set, is checked with the time left and the names of
+	// the rungs that ran, just before the rung would start; a non-empty
+	// answer skips it with that reason (not for lack of budget).
+	skipIf func(left time.Duration, ran map[string]bool) string
 }
 
 // planned splits Plan into the members that run side by side from the
@@ -125,7 +127,16 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 			lad = append(lad, rung{s: &sos.Bound{}, predict: predictLevelOne(w)})
 		}
 	case L <= maxSOSSize:
-		lad = append(lad, rung{s: &sos.Bound{}, predict: predictLevelOne(w)})
+		// The interior-point form when it fits; else the first-order one,
+		// which keeps what it has proven at the deadline.
+		ipm := &sos.Bound{}
+		lad = append(lad, rung{s: ipm, predict: predictLevelOne(w)},
+			rung{s: &sos.FirstOrder{}, predict: predictFirstOrderStep(w), skipIf: func(_ time.Duration, ran map[string]bool) string {
+				if ran[ipm.Name()] {
+					return "not needed: the interior-point level one ran"
+				}
+				return ""
+			}})
 	case L <= maxFirstOrderSize:
 		lad = append(lad, rung{s: &sos.FirstOrder{}, predict: predictFirstOrderStep(w)})
 	}
@@ -133,7 +144,7 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 		two := predictLevelTwo(w)
 		fits2 := m*n*(n+1)/2 <= maxLevelTwoOrder
 		if _, ok := twoCopyOrder(w); ok {
-			lad = append(lad, rung{s: &sos.TwoCopy{}, predict: predictTwoCopy(w), skipIf: func(left time.Duration) string {
+			lad = append(lad, rung{s: &sos.TwoCopy{}, predict: predictTwoCopy(w), skipIf: func(left time.Duration, _ map[string]bool) string {
 				if fits2 && two <= left {
 					return "level two, stronger, fits in the time left"
 				}
@@ -279,6 +290,7 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 	wg.Add(1)
 	go func() {
 		defer wg.Done()
+		ran := map[string]bool{}
 		for j, st := range lad {
 			i := len(conc) + j
 			skip := ""
@@ -293,13 +305,14 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 				skip = fmt.Sprintf("not started: predicted %s, %s left", roundDuration(st.predict), roundDuration(left))
 				budgetSkipped = true
 			case st.skipIf != nil:
-				skip = st.skipIf(left)
+				skip = st.skipIf(left, ran)
 			}
 			if skip != "" {
 				outs[i] = Member{Name: rankone.NameOf(st.s), Result: rankone.TrivialResult(w, rankone.NameOf(st.s)), Skipped: skip}
 				continue
 			}
 			run(i, st.s)
+			ran[rankone.NameOf(st.s)] = true
 		}
 	}()
 	wg.Wait()
