@@ -74,16 +74,65 @@ func (w *Subspace) coeffs(c, a []float64) {
 
 // Value returns ‖P_W(x⊗y)‖², which is h(x, y) for unit x and y.
 // It panics if len(x) ≠ m or len(y) ≠ n.
+//
+// With c_t = xᵀQ_t y for the stored matrices Q_t, the value is Σ c_t² (or
+// ‖x‖²‖y‖² − Σ c_t² when W⊥ is stored). Each c_t is formed as xᵀ(Q_t y):
+// the rows of Q_t dotted with y (dotRows over the basis viewed as an
+// (s·m)×n matrix), then with x, a batch of stored matrices at a time in a
+// small buffer, so the basis is read once and nothing of length mn is
+// formed.
 func (w *Subspace) Value(x, y []float64) float64 {
 	w.checkX(x, "x")
 	w.checkY(y, "y")
-	v := make([]float64, w.m*w.n)
-	kron(v, x, y)
-	c := make([]float64, w.s)
-	w.coeffs(c, v)
-	cc := dot(c, c)
+	cc := w.coeffSumSq(x, y)
 	if w.comp {
 		return dot(x, x)*dot(y, y) - cc
+	}
+	return cc
+}
+
+// batchRows is the number of rows of Q_t y (or of Q_tᵀ x) that the
+// fused contractions keep at a time: 8 KiB, in the L1 cache.
+const batchRows = 1024
+
+// smallWork is the length of the buffers the contractions keep on the
+// stack (2 KiB: Go zeroes them on every call, so they stay small); larger
+// ones come from contractScratch.
+const smallWork = 256
+
+// work returns a buffer of n entries (contents undefined): small, when it
+// is long enough, else one from contractScratch, whose handle h the caller
+// gives back with putScratch.
+func work(small []float64, n int) (h *[]float64, buf []float64) {
+	if n <= len(small) {
+		return nil, small[:n]
+	}
+	return getScratch(n)
+}
+
+// batch returns how many of s stored matrices a fused contraction takes at
+// a time when each gives p entries.
+func batch(p, s int) int { return max(1, min(s, batchRows/max(p, 1))) }
+
+// coeffSumSq returns Σ_t (xᵀQ_t y)².
+func (w *Subspace) coeffSumSq(x, y []float64) float64 {
+	m, n, L := w.m, w.n, w.m*w.n
+	tb := batch(m, w.s)
+	var small [smallWork]float64
+	h, buf := work(small[:], tb*m+tb)
+	z, c := buf[:tb*m], buf[tb*m:]
+	var cc float64
+	for t0 := 0; t0 < w.s; t0 += tb {
+		nt := min(tb, w.s-t0)
+		zt, ct := z[:nt*m], c[:nt]
+		dotRows(zt, w.q[t0*L:], n, y)
+		dotRows(ct, zt, m, x)
+		for _, v := range ct {
+			cc += float64(v * v)
+		}
+	}
+	if h != nil {
+		putScratch(h)
 	}
 	return cc
 }
@@ -162,31 +211,35 @@ func (w *Subspace) gradientWith(gx, gy, x, y, buf []float64, project func(dst, a
 	return dot(gx, x) / 2
 }
 
-// zy writes Z = [Q_t y]_t (s×m, row-major) for the stored matrices Q_t.
+// zy writes Z = [Q_t y]_t (s×m, row-major) for the stored matrices Q_t:
+// one dotRows over the basis viewed as an (s·m)×n matrix.
 func (w *Subspace) zy(z, y []float64) {
-	if w.s == 0 {
-		return
-	}
-	g := blas64.General{Rows: w.s * w.m, Cols: w.n, Stride: w.n, Data: w.q}
-	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: y, Inc: 1}, 0, blas64.Vector{N: w.s * w.m, Data: z, Inc: 1})
+	dotRows(z[:w.s*w.m], w.q, w.n, y)
 }
 
-// zx writes Z = [Q_tᵀ x]_t (s×n, row-major).
+// zx writes Z = [Q_tᵀ x]_t (s×n, row-major): for each t, the rows of Q_t
+// weighted by x and summed (axpyRows).
 func (w *Subspace) zx(z, x []float64) {
-	L := w.m * w.n
+	L, n := w.m*w.n, w.n
 	for t := 0; t < w.s; t++ {
-		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
-		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.m, Data: x, Inc: 1}, 0, blas64.Vector{N: w.n, Data: z[t*w.n : (t+1)*w.n], Inc: 1})
+		zt := z[t*n : (t+1)*n]
+		clear(zt)
+		axpyRows(zt, x, w.q[t*L:], n)
 	}
 }
 
 // G writes the m×m matrix G(y) = (I⊗y)ᵀ P_W (I⊗y) into dst, so that
 // xᵀG(y)x = ‖P_W(x⊗y)‖². An empty dst is resized. Forming G costs one pass
-// over the basis plus an s·m² Gram product; GOperator avoids the latter.
+// over the basis (Z = [Q_t y]_t) plus the Gram product ZᵀZ (about s·m²/2
+// multiply-adds, gramUpper); GOperator avoids the latter.
 // It panics if len(y) ≠ n or dst is not empty and not m×m.
 func (w *Subspace) G(dst *mat.SymDense, y []float64) {
 	w.checkY(y, "y")
-	w.gramInto(dst, w.GOperator(y))
+	hz, z := getScratch(w.s*w.m + gramPad)
+	clear(z[w.s*w.m:])
+	w.zy(z, y)
+	gramInto(dst, z, w.s, w.m, w.comp, dot(y, y))
+	putScratch(hz)
 }
 
 // H writes the n×n matrix H(x) = (x⊗I)ᵀ P_W (x⊗I) into dst, so that
@@ -194,7 +247,11 @@ func (w *Subspace) G(dst *mat.SymDense, y []float64) {
 // It panics if len(x) ≠ m or dst is not empty and not n×n.
 func (w *Subspace) H(dst *mat.SymDense, x []float64) {
 	w.checkX(x, "x")
-	w.gramInto(dst, w.HOperator(x))
+	hz, z := getScratch(w.s*w.n + gramPad)
+	clear(z[w.s*w.n:])
+	w.zx(z, x)
+	gramInto(dst, z, w.s, w.n, w.comp, dot(x, x))
+	putScratch(hz)
 }
 
 // Operator is the symmetric positive semidefinite map G(y) or H(x) of a
@@ -212,7 +269,12 @@ type Operator struct {
 // Order returns p, the order of the operator.
 func (op *Operator) Order() int { return op.p }
 
-// Apply sets dst = A·src. It panics on wrong lengths.
+// Apply sets dst = A·src; dst and src may be the same slice. With
+// c = Z·src (dotRows), dst = Zᵀc (axpyRows, in order of t) when W is
+// stored, and dst = σ·src − Zᵀc when W⊥ is, σ = ‖y‖² (or ‖x‖²): the
+// products −c_t·z_t (exactly the negated ones) added to the rounded σ·src
+// in order of t.
+// It panics on wrong lengths.
 func (op *Operator) Apply(dst, src []float64) {
 	if len(dst) != op.p || len(src) != op.p {
 		panic("subspace: Operator.Apply needs vectors of length " + itoa(op.p))
@@ -227,21 +289,30 @@ func (op *Operator) Apply(dst, src []float64) {
 		}
 		return
 	}
-	g := blas64.General{Rows: op.s, Cols: op.p, Stride: op.p, Data: op.z}
-	c := make([]float64, op.s)
-	blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: op.p, Data: src, Inc: 1}, 0, blas64.Vector{N: op.s, Data: c, Inc: 1})
+	var small [smallWork]float64
+	h, c := work(small[:], op.s)
+	dotRows(c, op.z, op.p, src)
 	if op.comp {
+		for t := range c {
+			c[t] = -c[t]
+		}
 		for i := range dst {
 			dst[i] = op.shift * src[i]
 		}
-		blas64.Gemv(blas.Trans, -1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 1, blas64.Vector{N: op.p, Data: dst, Inc: 1})
-		return
+	} else {
+		clear(dst)
 	}
-	blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: op.s, Data: c, Inc: 1}, 0, blas64.Vector{N: op.p, Data: dst, Inc: 1})
+	axpyRows(dst, c, op.z, op.p)
+	if h != nil {
+		putScratch(h)
+	}
 }
 
-// GOperator returns G(y) (order m) in factored form: one Gemv over the
-// stored basis viewed as an (s·m)×n matrix.
+// GOperator returns G(y) (order m) in factored form: one dotRows over the
+// stored basis viewed as an (s·m)×n matrix. Each entry of the factor Z is
+// a sum of n rounded products, so within γ_n Σ_j |Q_t[i,j]·y_j| of the
+// exact one (contract_kernel.go), as the certified bound net.MaxEigG
+// assumes.
 // It panics if len(y) ≠ n.
 func (w *Subspace) GOperator(y []float64) *Operator {
 	w.checkY(y, "y")
@@ -250,7 +321,10 @@ func (w *Subspace) GOperator(y []float64) *Operator {
 	return op
 }
 
-// HOperator returns H(x) (order n) in factored form.
+// HOperator returns H(x) (order n) in factored form: for each stored
+// matrix, its rows weighted by x and summed (axpyRows). Each entry of the
+// factor is a sum of m rounded products, within γ_m Σ_i |x_i·Q_t[i,j]| of
+// the exact one, as net.MaxEigH assumes.
 // It panics if len(x) ≠ m.
 func (w *Subspace) HOperator(x []float64) *Operator {
 	w.checkX(x, "x")
@@ -259,9 +333,10 @@ func (w *Subspace) HOperator(x []float64) *Operator {
 	return op
 }
 
-// gramInto writes the operator's matrix into dst.
-func (w *Subspace) gramInto(dst *mat.SymDense, op *Operator) {
-	p := op.p
+// gramInto writes the matrix of the operator with factor z (s×p, followed
+// by gramPad zeros) into dst: ZᵀZ (gramUpper), or shift·I − ZᵀZ when comp
+// is set.
+func gramInto(dst *mat.SymDense, z []float64, s, p int, comp bool, shift float64) {
 	if dst.IsEmpty() {
 		dst.ReuseAsSym(p)
 	}
@@ -272,46 +347,107 @@ func (w *Subspace) gramInto(dst *mat.SymDense, op *Operator) {
 	if raw.Uplo != blas.Upper {
 		panic("subspace: partial matrix must be stored upper")
 	}
-	if op.s > 0 {
-		// ZᵀZ through the transpose: gonum's Syrk is faster in NoTrans form.
-		zt := make([]float64, p*op.s)
-		for t := 0; t < op.s; t++ {
-			for a := 0; a < p; a++ {
-				zt[a*op.s+t] = op.z[t*p+a]
-			}
-		}
-		blas64.Syrk(blas.NoTrans, 1, blas64.General{Rows: p, Cols: op.s, Stride: op.s, Data: zt}, 0, raw)
+	if s > 0 {
+		gramUpper(z, s, p, raw.Data, raw.Stride)
 	} else {
 		for i := 0; i < p; i++ {
-			for j := i; j < p; j++ {
-				raw.Data[i*raw.Stride+j] = 0
-			}
+			clear(raw.Data[i*raw.Stride+i : i*raw.Stride+p])
 		}
 	}
-	if op.comp {
+	if comp {
 		for i := 0; i < p; i++ {
+			row := raw.Data[i*raw.Stride : i*raw.Stride+p]
 			for j := i; j < p; j++ {
-				raw.Data[i*raw.Stride+j] = -raw.Data[i*raw.Stride+j]
+				row[j] = -row[j]
 			}
-			raw.Data[i*raw.Stride+i] += op.shift
+			row[i] += shift
 		}
 	}
 }
 
-// ApplyG writes G(y)·x into dst (length m) without forming G(y).
+// ApplyG writes G(y)·x into dst (length m) without forming G(y): the same
+// sums in the same order as GOperator(y).Apply(dst, x), so the same
+// result bit for bit, but a batch of the rows Q_t y at a time in a small
+// buffer instead of all of Z. dst and x may be the same slice.
 // It panics on wrong lengths.
 func (w *Subspace) ApplyG(dst, y, x []float64) {
 	w.checkX(x, "x")
 	w.checkX(dst, "dst")
-	w.GOperator(y).Apply(dst, x)
+	w.checkY(y, "y")
+	m, n, L := w.m, w.n, w.m*w.n
+	tb := batch(m, w.s)
+	var small [smallWork]float64
+	h, buf := work(small[:], tb*m+tb+m)
+	z, c, acc := buf[:tb*m], buf[tb*m:tb*m+tb], buf[tb*m+tb:]
+	w.applyStart(acc, x, y)
+	for t0 := 0; t0 < w.s; t0 += tb {
+		nt := min(tb, w.s-t0)
+		zt := z[:nt*m]
+		dotRows(zt, w.q[t0*L:], n, y)
+		w.applyBatch(acc, zt, c[:nt], x)
+	}
+	copy(dst, acc)
+	if h != nil {
+		putScratch(h)
+	}
 }
 
-// ApplyH writes H(x)·y into dst (length n) without forming H(x).
+// ApplyH writes H(x)·y into dst (length n) without forming H(x), as
+// ApplyG: bit for bit HOperator(x).Apply(dst, y). dst and y may be the
+// same slice.
 // It panics on wrong lengths.
 func (w *Subspace) ApplyH(dst, x, y []float64) {
 	w.checkY(y, "y")
 	w.checkY(dst, "dst")
-	w.HOperator(x).Apply(dst, y)
+	w.checkX(x, "x")
+	n, L := w.n, w.m*w.n
+	tb := batch(n, w.s)
+	var small [smallWork]float64
+	h, buf := work(small[:], tb*n+tb+n)
+	z, c, acc := buf[:tb*n], buf[tb*n:tb*n+tb], buf[tb*n+tb:]
+	w.applyStart(acc, y, x)
+	for t0 := 0; t0 < w.s; t0 += tb {
+		nt := min(tb, w.s-t0)
+		zt := z[:nt*n]
+		for u := 0; u < nt; u++ {
+			zu := zt[u*n : (u+1)*n]
+			clear(zu)
+			axpyRows(zu, x, w.q[(t0+u)*L:], n)
+		}
+		w.applyBatch(acc, zt, c[:nt], y)
+	}
+	copy(dst, acc)
+	if h != nil {
+		putScratch(h)
+	}
+}
+
+// applyStart sets acc, the accumulator of ApplyG or ApplyH for the vector
+// v the operator is applied to (u the other side), to zero, or to ‖u‖²·v
+// when W⊥ is stored (Apply's start).
+func (w *Subspace) applyStart(acc, v, u []float64) {
+	if !w.comp {
+		clear(acc)
+		return
+	}
+	shift := dot(u, u)
+	for i, a := range v {
+		acc[i] = shift * a
+	}
+}
+
+// applyBatch adds the contribution of a batch of rows z_t of Z (zt,
+// len(c) rows of length len(v)) to acc, as Apply does: c_t = z_t·v, then
+// acc += c_t·z_t (−c_t when W⊥ is stored) in order of t.
+func (w *Subspace) applyBatch(acc, zt, c, v []float64) {
+	p := len(v)
+	dotRows(c, zt, p, v)
+	if w.comp {
+		for t := range c {
+			c[t] = -c[t]
+		}
+	}
+	axpyRows(acc, c, zt, p)
 }
 
 // ApplyPartialTrace1 writes Tr₂(P_W)·x into dst (both length m), where
