@@ -368,6 +368,11 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		if l2cert != nil && l2cert.K != nil {
 			ev.LevelTwo = l2cert
 		}
+		for _, o := range outs {
+			if o.Name == (&sos.TwoCopy{}).Name() && o.Err == nil && o.Result.Lower > 0 {
+				ev.TwoCopy = true
+			}
+		}
 		rep.Proof, rep.ProofError = proof.Build(ctx, ev)
 	}
 	if w.Field() == subspace.Complex {

@@ -34,8 +34,9 @@
 // its span to the stored subspace (subspace.InputDistance), so that the
 // interval widened by θ holds for the input as given; Upper as Verify at the
 // witness; Lower from its argument (the flattening bound recomputed, the
-// certificate verified by sos.Verify or sos.VerifyLevelTwo, or the cover checked by
-// net.CheckCover). Each recomputed bound must be at least as good as the
+// certificate verified by sos.Verify or sos.VerifyLevelTwo, the two-copy
+// eigenvalue bound recomputed (lower argument "two-copy", no member of its
+// own), or the cover checked by net.CheckCover). Each recomputed bound must be at least as good as the
 // claim. The writer claims its own recomputation weakened by a relative
 // margin (1e-9): on another machine the same sums may round differently in
 // their last bits (gonum's kernels differ between architectures), and the
@@ -91,6 +92,9 @@ const (
 	ArgSOS1Complex = "sos-level-1-complex"
 	ArgBranch      = "branch-and-bound"
 	ArgBranchPart  = "branch-and-bound-part"
+	// ArgTwoCopy is the two-copy eigenvalue bound (sos.EigenBound),
+	// recomputed from the stored basis at check time (real only).
+	ArgTwoCopy = "two-copy"
 )
 
 // Margin is the relative amount by which a writer weakens its claims (see
@@ -174,6 +178,10 @@ type Evidence struct {
 	// ComplexCertificate is the PPT certificate of a complex subspace
 	// (sos.Bound.KeepComplex).
 	ComplexCertificate *sos.ComplexCertificate
+	// TwoCopy asks Build to consider the two-copy eigenvalue bound
+	// (sos.EigenBound, recomputed like the flattening: it needs no data
+	// beyond the stored basis) of a real subspace.
+	TwoCopy bool
 }
 
 // Build makes a proof from the evidence: it recomputes every bound as Check
@@ -243,6 +251,13 @@ func Build(ctx context.Context, ev Evidence) (*Proof, error) {
 				best, arg = lo, ArgBranch
 				p.Cover = ev.Cover
 				p.File.CoverD, p.File.CoverOnX = ev.Cover.D, ev.Cover.OnX
+			}
+		}
+	}
+	if ev.TwoCopy && !cplx {
+		if hb, err := sos.EigenBound(ctx, rw); err == nil {
+			if lo := rankone.DistanceLower(hb); lo > best {
+				best, arg = lo, ArgTwoCopy
 			}
 		}
 	}
@@ -434,6 +449,15 @@ func CheckInput(ctx context.Context, p *Proof, in *subspace.Input, inputBytes []
 	case ArgFlattening:
 		_, lo = rankone.FlatteningBound(ctx, w)
 		lo = inField(w, lo)
+	case ArgTwoCopy:
+		if cplx {
+			return c, fmt.Errorf("%w: the two-copy argument is real only", ErrFormat)
+		}
+		hb, err := sos.EigenBound(ctx, w)
+		if err != nil {
+			return c, fmt.Errorf("%w: two-copy bound: %v", ErrClaim, err)
+		}
+		lo = rankone.DistanceLower(hb)
 	case ArgSOS1Complex:
 		if !cplx {
 			return c, fmt.Errorf("%w: a complex certificate in a real proof", ErrFormat)
