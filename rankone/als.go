@@ -2,7 +2,6 @@ package rankone
 
 import (
 	"context"
-	"math"
 
 	"github.com/segre-lab/segre/subspace"
 )
@@ -14,8 +13,20 @@ import (
 // (monotone block-coordinate ascent; for the injective norm of a tensor this
 // is the alternating scheme of De Lathauwer, De Moor, Vandewalle, SIAM J.
 // Matrix Anal. Appl. 21, 2000, with exact block maximisation). The top
-// eigenvectors come from warm-started Lanczos (TopEigen) on the factored
-// operators (subspace.GOperator), never from a full decomposition.
+// eigenvectors come from Lanczos warm-started at the current vector, never
+// from a full decomposition: on the p×p matrix when the side is small
+// (p ≤ 32) or the subspace's batches hold their operators formed, on the
+// factored operator (2·s·p a step) otherwise.
+//
+// Many starts are best run together (RefineBatch; MultiStart does): each
+// half-step's operators then come from one matrix-matrix product over the
+// stored basis for all starts (subspace.SearchGBatch) instead of one
+// memory-bound pass per start, with the same iterates for each start as
+// alone. An iteration ends, and the stopping rule is tested, after both
+// half-steps: converged when the Riemannian gradient (its y part before
+// the y update, its x part before the x update) is at most GradTol, or at
+// a floating-point floor when its norm has not fallen by 10% in 20
+// iterations (converged if it is then below 1e-6).
 //
 // The zero value is ready to use.
 type ALS struct {
@@ -39,40 +50,10 @@ func (a *ALS) Search(ctx context.Context, w *subspace.Subspace) (Result, error) 
 	return searchLocal(ctx, w, a)
 }
 
-// Refine implements Local.
+// Refine implements Local: RefineBatch from the one start.
 func (a *ALS) Refine(ctx context.Context, w *subspace.Subspace, x, y []float64) (Stats, error) {
-	if err := a.check(); err != nil {
-		return Stats{}, err
-	}
-	o := &oracle{w: w}
-	maxIter := orDefault(a.MaxIter, 500)
-	tol := orDefaultF(a.GradTol, 1e-12)
-	gate := NewThrottle(a.Progress)
-	gx, hy := make([]float64, len(x)), make([]float64, len(y))
-	st := Stats{Status: LimitReached}
-	sl := stall{patience: 20}
-	var h float64
-	for it := 0; it < maxIter; it++ {
-		if err := ctx.Err(); err != nil {
-			return st.cancelled(o, x, y, err)
-		}
-		st.Iterations = it + 1
-		hop := o.HOperator(x)
-		hop.Apply(hy, y)
-		ggy := 2 * tangentNorm(hy, y)
-		TopEigen(hop.Apply, y, 0, 0, 1e-14)
-		gop := o.GOperator(y)
-		gop.Apply(gx, x)
-		ggx := 2 * tangentNorm(gx, x)
-		h, _ = TopEigen(gop.Apply, x, 0, 0, 1e-14)
-		gate.Report(Progress{Searcher: a.Name(), Iteration: it + 1, Value: h, Upper: 1})
-		if st.settle(math.Hypot(ggx, ggy), tol, &sl) {
-			break
-		}
-	}
-	st.Value = h
-	st.Evaluations = o.evals
-	return st, nil
+	st, err := a.RefineBatch(ctx, w, [][]float64{x}, [][]float64{y})
+	return st[0], err
 }
 
 func (a *ALS) check() error {

@@ -22,6 +22,15 @@ import (
 // Workers. Converged points equal up to sign (|⟨x,x'⟩|·|⟨y,y'⟩| ≥ 1 − 1e-9)
 // are counted once.
 //
+// A method that implements BatchLocal (ALS does) refines the starts in
+// batches: start 0 alone (it is often the best, and is then reported
+// soonest), the others in groups of at most Batch, as evenly spread over
+// the workers as that allows. Each start's outcome is what Refine gives
+// from it alone (BatchLocal's promise), so the Result does not depend on
+// Batch either. When the context ends during a batch, only its start with
+// the largest value is verified and kept (verifying every start of a large
+// batch would delay the return).
+//
 // The zero value is ready to use.
 type MultiStart struct {
 	// Method is the local method; nil means &TrustRegion{}.
@@ -32,6 +41,9 @@ type MultiStart struct {
 	Seed uint64
 	// Workers is the number of goroutines; zero means GOMAXPROCS.
 	Workers int
+	// Batch is the most starts a BatchLocal method refines together; zero
+	// means 32. It changes the speed only, never the Result.
+	Batch int
 	// Progress, if set, is called at most every 200 ms with the best bounds.
 	Progress func(Progress)
 }
@@ -96,26 +108,64 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 	best := 1.0
 	gate := NewThrottle(ms.Progress)
 	done := 0
-	ParallelFor(ctx, starts, workers, func(_, i int) {
-		o := NewCounter(w)
-		x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
-		ms.startPoint(o, i, x, y)
-		st, _ := l.Refine(ctx, w, x, y)
-		u, err := Verify(w, x, y)
-		if err != nil {
-			u = 1
-		}
-		out := startOut{x: x, y: y, st: st, evals: o.evals + st.Evaluations, upper: u, key: rankKey(w, x, y, u), done: true}
+	keep := func(i int, out startOut) {
 		mu.Lock()
 		if i >= len(outs) {
 			outs = append(outs, make([]startOut, i+1-len(outs))...)
 		}
 		outs[i] = out
 		done++
-		best = math.Min(best, u)
-		gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: st.Value})
+		best = math.Min(best, out.upper)
+		gate.Report(Progress{Searcher: ms.Name(), Starts: done, Upper: best, Value: out.st.Value})
 		mu.Unlock()
-	})
+	}
+	verified := func(x, y []float64, st Stats, evals int) startOut {
+		u, err := Verify(w, x, y)
+		if err != nil {
+			u = 1
+		}
+		return startOut{x: x, y: y, st: st, evals: evals, upper: u, key: rankKey(w, x, y, u), done: true}
+	}
+	if bl, ok := l.(BatchLocal); ok {
+		first, size := batchLayout(starts, workers, orDefault(ms.Batch, 32))
+		nb := 1 + (starts-first+size-1)/size
+		ParallelFor(ctx, nb, workers, func(_, j int) {
+			lo, hi := 0, first
+			if j > 0 {
+				lo = first + (j-1)*size
+				hi = min(starts, lo+size)
+			}
+			xs, ys, evals := make([][]float64, hi-lo), make([][]float64, hi-lo), make([]int, hi-lo)
+			for k := range xs {
+				o := NewCounter(w)
+				xs[k], ys[k] = make([]float64, w.Rows()), make([]float64, w.Cols())
+				ms.startPoint(o, lo+k, xs[k], ys[k])
+				evals[k] = o.evals
+			}
+			stats, _ := bl.RefineBatch(ctx, w, xs, ys)
+			if ctx.Err() != nil {
+				top := 0
+				for k := range stats {
+					if stats[k].Value > stats[top].Value {
+						top = k
+					}
+				}
+				keep(lo+top, verified(xs[top], ys[top], stats[top], evals[top]+stats[top].Evaluations))
+				return
+			}
+			for k := range xs {
+				keep(lo+k, verified(xs[k], ys[k], stats[k], evals[k]+stats[k].Evaluations))
+			}
+		})
+	} else {
+		ParallelFor(ctx, starts, workers, func(_, i int) {
+			o := NewCounter(w)
+			x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
+			ms.startPoint(o, i, x, y)
+			st, _ := l.Refine(ctx, w, x, y)
+			keep(i, verified(x, y, st, o.evals+st.Evaluations))
+		})
+	}
 
 	res := Result{FoundBy: ms.Name(), Upper: 1, Status: Converged}
 	var pts []Point
@@ -156,6 +206,18 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		return res, pts, err
 	}
 	return res, pts, nil
+}
+
+// batchLayout returns how MultiStart cuts starts into batches for workers:
+// the first batch holds starts [0, first) (start 0 alone), the others
+// size starts each (the last may hold fewer), size at most most and small
+// enough that every worker gets a batch.
+func batchLayout(starts, workers, most int) (first, size int) {
+	rest := starts - 1
+	if rest <= 0 {
+		return starts, 1
+	}
+	return 1, max(1, min(most, (rest+workers-1)/workers))
 }
 
 func unitVec(n int) []float64 {
@@ -249,5 +311,5 @@ func topSingularPair(a []float64, m, n int, x, y []float64, rng *rand.Rand) {
 }
 
 func (ms *MultiStart) check() error {
-	return CheckSettings("MultiStart", []Setting{{"Starts", float64(ms.Starts)}, {"Workers", float64(ms.Workers)}}...)
+	return CheckSettings("MultiStart", []Setting{{"Starts", float64(ms.Starts)}, {"Workers", float64(ms.Workers)}, {"Batch", float64(ms.Batch)}}...)
 }
