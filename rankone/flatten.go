@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/segre-lab/segre/internal/accurate"
+	"github.com/segre-lab/segre/internal/eigen"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -75,7 +76,7 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 		return res, ctx.Err()
 	}
 	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
-	spectralStart(o, x, y)
+	spectralStart(ctx, o, x, y)
 	res.X, res.Y = x, y
 	res.Value = o.Value(x, y)
 	res.Status = Converged
@@ -91,16 +92,39 @@ func (f Flattening) Search(ctx context.Context, w *subspace.Subspace) (Result, e
 // spectralStart writes a deterministic start point: x is the top eigenvector
 // of Tr₂(P_W) (a few Lanczos steps, matrix-free), y the top eigenvector of
 // H(x) (the best y for that x); the roles swap when n < m.
-func spectralStart(o *oracle, x, y []float64) {
+//
+// Each Lanczos run stops at the next product once ctx is done (its best
+// Ritz vector so far, or the pseudo-random start, is still a start point):
+// at sizes such as 2×4000 with 4000 matrices the two runs take seconds.
+func spectralStart(ctx context.Context, o *oracle, x, y []float64) {
+	stop := func() bool { return ctx.Err() != nil }
 	if len(x) <= len(y) {
 		clear(x)
-		TopEigen(o.ApplyPartialTrace1, x, 12, 1, 1e-3)
+		eigen.TopStop(o.ApplyPartialTrace1, x, 12, 1, 1e-3, stop)
 		clear(y)
-		TopEigen(o.HOperator(x).Apply, y, 0, 0, 1e-12)
+		if ctx.Err() == nil {
+			eigen.TopStop(o.HOperator(x).Apply, y, 0, 0, 1e-12, stop)
+		}
 	} else {
 		clear(y)
-		TopEigen(o.ApplyPartialTrace2, y, 12, 1, 1e-3)
+		eigen.TopStop(o.ApplyPartialTrace2, y, 12, 1, 1e-3, stop)
 		clear(x)
-		TopEigen(o.GOperator(y).Apply, x, 0, 0, 1e-12)
+		if ctx.Err() == nil {
+			eigen.TopStop(o.GOperator(y).Apply, x, 0, 0, 1e-12, stop)
+		}
+	}
+	unitOrFirst(x)
+	unitOrFirst(y)
+}
+
+// unitOrFirst leaves a unit vector as it is and replaces a zero one (or one
+// that is not finite) by e₁.
+func unitOrFirst(v []float64) {
+	if n := norm(v); n > 0 && !math.IsInf(n, 0) && !math.IsNaN(n) {
+		return
+	}
+	clear(v)
+	if len(v) > 0 {
+		v[0] = 1
 	}
 }

@@ -36,7 +36,7 @@ func searchLocal(ctx context.Context, w *subspace.Subspace, l Local) (Result, er
 	}
 	o := &oracle{w: w}
 	x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
-	spectralStart(o, x, y)
+	spectralStart(ctx, o, x, y)
 	st, err := l.Refine(ctx, w, x, y)
 	res := Result{X: x, Y: y, FoundBy: l.Name(), Value: st.Value, Status: st.Status,
 		Iterations: st.Iterations, Evaluations: st.Evaluations + o.evals, Starts: 1}

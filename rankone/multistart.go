@@ -139,7 +139,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 			for k := range xs {
 				o := NewCounter(w)
 				xs[k], ys[k] = make([]float64, w.Rows()), make([]float64, w.Cols())
-				ms.startPoint(o, lo+k, xs[k], ys[k])
+				ms.startPoint(ctx, o, lo+k, xs[k], ys[k])
 				evals[k] = o.evals
 			}
 			stats, _ := bl.RefineBatch(ctx, w, xs, ys)
@@ -161,7 +161,7 @@ func (ms *MultiStart) SearchAll(ctx context.Context, w *subspace.Subspace) (Resu
 		ParallelFor(ctx, starts, workers, func(_, i int) {
 			o := NewCounter(w)
 			x, y := make([]float64, w.Rows()), make([]float64, w.Cols())
-			ms.startPoint(o, i, x, y)
+			ms.startPoint(ctx, o, i, x, y)
 			st, _ := l.Refine(ctx, w, x, y)
 			keep(i, verified(x, y, st, o.evals+st.Evaluations))
 		})
@@ -249,9 +249,9 @@ func sortPoints(p []Point) {
 }
 
 // startPoint writes start i into x, y.
-func (ms *MultiStart) startPoint(o *oracle, i int, x, y []float64) {
+func (ms *MultiStart) startPoint(ctx context.Context, o *oracle, i int, x, y []float64) {
 	if i == 0 {
-		spectralStart(o, x, y)
+		spectralStart(ctx, o, x, y)
 		return
 	}
 	rng := rand.New(rand.NewPCG(ms.Seed, uint64(i)))

@@ -23,6 +23,13 @@ import (
 // estimate on return. It returns the Ritz value and the number of calls of
 // apply.
 func Top(apply func(dst, src []float64), x []float64, steps, restarts int, tol float64) (theta float64, calls int) {
+	return TopStop(apply, x, steps, restarts, tol, nil)
+}
+
+// TopStop is Top that also ends as soon as stop (checked before each call
+// of apply; nil never stops) reports true, returning the best Ritz pair of
+// the Lanczos vectors built so far (x unchanged, and θ = 0, if none).
+func TopStop(apply func(dst, src []float64), x []float64, steps, restarts int, tol float64, stop func() bool) (theta float64, calls int) {
 	p := len(x)
 	if p == 0 {
 		return 0, 0
@@ -82,6 +89,12 @@ func Top(apply func(dst, src []float64), x []float64, steps, restarts int, tol f
 		copy(v[:p], x)
 		var anorm float64
 		for j := 0; j < steps; j++ {
+			if stop != nil && stop() {
+				if j > 0 {
+					ritz(j, anorm)
+				}
+				return theta, calls
+			}
 			vj := v[j*p : (j+1)*p]
 			apply(wv, vj)
 			calls++
