@@ -9,7 +9,7 @@ import (
 )
 
 // Blocked matrix products, for the factorisation (qrcp.go) and for the
-// Gram matrix of the stored vectors (orthogonality).
+// Gram matrix of the stored vectors (orthogonality, gramCols).
 //
 // The scheme is the usual one of packed products (K. Goto and R. van de
 // Geijn, "Anatomy of high-performance matrix multiplication", ACM Trans.
@@ -31,7 +31,7 @@ import (
 //
 // Rounding. The factorisation's products (mul) may fuse each product with
 // its addition: nothing certified is computed from them directly (see
-// factor). The Gram matrix (gram) never does (tile4x12Sep, tile4x24Sep,
+// factor). The Gram matrix (gramCols) never does (tile4x12Sep, tile4x24Sep,
 // and mulTileGo, which writes float64(a*b)), so its error bound is the one
 // orthogonality derives for separately rounded products.
 const (
@@ -164,31 +164,46 @@ func (g *gemmPool) unitSize(n, most, q int) int {
 	return min(size, most)
 }
 
-// gram sets the upper triangle of the s×s matrix c (row stride s) to
-// fl(SSᵀ) for the s rows of length L of S (row stride L), by column blocks
-// of tileN, with the unfused tile: every entry is Σ_ℓ S_iℓ·S_jℓ with each
-// product rounded, then added, in an order fixed by the tiling (the same
-// for any number of workers). Entries below the diagonal inside the
-// diagonal blocks are set too. It returns false, with c incomplete, when
-// stop reported true first.
-func (g *gemmPool) gram(s, L int, S, c []float64, stop func() bool) bool {
-	if s == 0 {
+// gramCols sets the columns [j0, j1) of the lower triangle of fl(SSᵀ), for
+// the s rows of length L of S (row stride L), into the buffer c: entry
+// (i, j), j0 ≤ j < j1, j ≤ i < s, goes to c[(i−j0)·ldc + (j−j0)] (some
+// entries above the diagonal near it are set too; the others of the
+// (s−j0)×(j1−j0) region are zero). It uses the unfused tile: every entry
+// is Σ_ℓ S_iℓ·S_jℓ with each product rounded, then added, in slices of
+// tileK as every product here (the same for any number of workers and
+// any units). Since S_iℓ·S_jℓ and S_jℓ·S_iℓ are the same rounded product,
+// entry (i, j) has the bits of entry (j, i) of the whole product too.
+// The work is cut into units of at most tileN columns and, when that
+// gives fewer than two units a worker, row blocks. It returns false, with
+// c incomplete, when stop reported true first.
+func (g *gemmPool) gramCols(s, L int, S []float64, j0, j1 int, c []float64, ldc int, stop func() bool) bool {
+	nt, rows := j1-j0, s-j0
+	if nt <= 0 {
 		return true
 	}
-	clear(c[:s*s])
+	clear(c[:(rows-1)*ldc+nt])
 	if L == 0 {
 		return true
 	}
 	nr := stripN()
-	width := g.unitSize(s, tileN, nr)
-	units := (s + width - 1) / width
+	width := g.unitSize(nt, tileN, nr)
+	cu := (nt + width - 1) / width
+	blocks := 1
+	if want := 2 * g.workers; cu < want {
+		blocks = (want + cu - 1) / cu
+	}
+	height := max(tileM, ((rows+blocks-1)/blocks+3)/4*4)
+	ru := (rows + height - 1) / height
 	kc := min(tileK, L)
-	mp, np := (min(s, tileM)+3)/4*4, (min(s, tileN)+nr-1)/nr*nr
-	return g.fan(units, mp, np, kc, stop, func(u int, buf *packBuf, halt func() bool) {
-		u = units - 1 - u // the largest blocks first
-		j0 := u * width
-		j1 := min(s, j0+width)
-		mulCols(j1, j1-j0, L, false, operand{S, L, false}, operand{S, L, true}, j0, c, s, buf, halt, false)
+	mp, np := (min(rows, tileM)+3)/4*4, (min(nt, width)+nr-1)/nr*nr
+	return g.fan(cu*ru, mp, np, kc, stop, func(u int, buf *packBuf, halt func() bool) {
+		u0 := u / ru * width
+		u1 := min(nt, u0+width)
+		r0, r1 := max(u%ru*height, u0), min(rows, (u%ru+1)*height) // rows above u0 are the upper triangle's
+		if r0 >= r1 {
+			return
+		}
+		mulCols(r1-r0, u1-u0, L, false, operand{S[(j0+r0)*L:], L, false}, operand{S[j0*L:], L, true}, u0, c[r0*ldc:], ldc, buf, halt, false)
 	})
 }
 

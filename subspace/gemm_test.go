@@ -164,15 +164,44 @@ func TestRowKernels(t *testing.T) {
 	})
 }
 
-// The Gram matrix of orthogonality: with every tile, bit for bit the same
-// as with the portable tile (derived: the unfused tiles and mulTileGo do
-// the same IEEE operations, fl(acc + fl(a·b)) in order of l, so a fused
-// multiply-add anywhere would show), and within γ_L·Σ_ℓ|s_iℓ s_jℓ| of
-// gonum's Dsyrk (Higham 2002, eq. 3.5: both are inner products of length
-// L evaluated in some order).
+// gramFull is the Gram product that orthogonality used before issue 16,
+// kept here as the reference for gramCols: it sets the upper triangle of
+// the s×s matrix c (row stride s) to fl(SSᵀ) in one call (s² words), by
+// column blocks of the whole triangle, with the unfused tile.
+func (g *gemmPool) gramFull(s, L int, S, c []float64, stop func() bool) bool {
+	if s == 0 {
+		return true
+	}
+	clear(c[:s*s])
+	if L == 0 {
+		return true
+	}
+	nr := stripN()
+	width := g.unitSize(s, tileN, nr)
+	units := (s + width - 1) / width
+	kc := min(tileK, L)
+	mp, np := (min(s, tileM)+3)/4*4, (min(s, tileN)+nr-1)/nr*nr
+	return g.fan(units, mp, np, kc, stop, func(u int, buf *packBuf, halt func() bool) {
+		u = units - 1 - u
+		j0 := u * width
+		j1 := min(s, j0+width)
+		mulCols(j1, j1-j0, L, false, operand{S, L, false}, operand{S, L, true}, j0, c, s, buf, halt, false)
+	})
+}
+
+// The Gram matrix of orthogonality. gramFull with every tile is bit for
+// bit the same as with the portable tile (derived: the unfused tiles and
+// mulTileGo do the same IEEE operations, fl(acc + fl(a·b)) in order of l,
+// so a fused multiply-add anywhere would show), and within
+// γ_L·Σ_ℓ|s_iℓ s_jℓ| of gonum's Dsyrk (Higham 2002, eq. 3.5: both are inner
+// products of length L evaluated in some order). gramCols, with every
+// tile, 1 to 3 workers and panels of several widths (cutting tileN, tileM
+// and the strips at odd places), gives entry (j, i), j ≥ i, with the bits of
+// the portable gramFull's entry (i, j) (derived: the same rounded products,
+// S_jℓ·S_iℓ = S_iℓ·S_jℓ, summed in the same order; see gramCols).
 func TestGramUnfused(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 12))
-	for _, sh := range [][2]int{{1, 1}, {5, 3}, {37, 600}, {450, 300}} {
+	for _, sh := range [][2]int{{1, 1}, {5, 3}, {37, 600}, {450, 300}, {800, 40}} {
 		t.Run(fmt.Sprintf("%dx%d", sh[0], sh[1]), func(t *testing.T) { gramCase(t, rng, sh[0], sh[1]) })
 	}
 }
@@ -183,15 +212,35 @@ func gramCase(t *testing.T, rng *rand.Rand, s, L int) {
 	keep := tileKind
 	tileKind = tileGo
 	ref := make([]float64, s*s)
-	newGemmPoolN(2, max(s, L)).gram(s, L, q, ref, nil)
+	newGemmPoolN(2, max(s, L)).gramFull(s, L, q, ref, nil)
 	tileKind = keep
 	kernelPaths(t, func(t *testing.T) {
 		got := make([]float64, s*s)
-		newGemmPoolN(3, max(s, L)).gram(s, L, q, got, nil)
+		newGemmPoolN(3, max(s, L)).gramFull(s, L, q, got, nil)
 		for i := 0; i < s; i++ {
 			for j := i; j < s; j++ {
 				if math.Float64bits(got[i*s+j]) != math.Float64bits(ref[i*s+j]) {
 					t.Fatalf("%v: entry (%d, %d) = %v, portable tile %v", sh, i, j, got[i*s+j], ref[i*s+j])
+				}
+			}
+		}
+		for workers := 1; workers <= 3; workers++ {
+			for _, p := range []int{1, 7, 200, gramPanel, 500} {
+				p = min(p, s)
+				buf := make([]float64, s*p)
+				gp := newGemmPoolN(workers, max(s, L))
+				for j0 := 0; j0 < s; j0 += p {
+					j1 := min(s, j0+p)
+					if !gp.gramCols(s, L, q, j0, j1, buf, p, nil) {
+						t.Fatal("gramCols stopped without a stop function")
+					}
+					for i := j0; i < j1; i++ {
+						for j := i; j < s; j++ {
+							if v := buf[(j-j0)*p+i-j0]; math.Float64bits(v) != math.Float64bits(ref[i*s+j]) {
+								t.Fatalf("%v, %d workers, panels of %d: entry (%d, %d) = %v, portable gramFull's (%d, %d) %v", sh, workers, p, j, i, v, i, j, ref[i*s+j])
+							}
+						}
+					}
 				}
 			}
 		}

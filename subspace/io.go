@@ -199,7 +199,8 @@ func checkArrayShape(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 
 // checkShapeField is checkShape for real (complex false) or complex data:
 // a complex entry takes 16 bytes, and NewComplex orthonormalises 2r real
-// vectors of 2mn entries and stores W” of 2k vectors of 4mn entries.
+// vectors of 2mn entries and stores W” of 2k vectors of 4mn entries
+// (complexWorkBytes).
 func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 	if r <= 0 || m <= 0 || n <= 0 {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d) has a zero or negative size", ErrFormat, r, m, n)
@@ -216,7 +217,7 @@ func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 			return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
 		}
 		data = 16 * r * m * n
-		need = data + 2*data + workBytes(int(2*r), int(2*m*n)) + 8*min(2*r, 2*m*n)*4*m*n
+		need = complexWorkBytes(r, m, n)
 	}
 	if need > limit || need < 0 {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d): reading (%d bytes) and orthonormalising need about %d bytes, limit %d",
@@ -343,7 +344,15 @@ func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, erro
 	// One array of the declared size (its pages are touched only as data
 	// arrive), filled in file order; Fortran order, where element (t, i, j)
 	// is at t + r·(i + m·j), is scattered straight to its row-major place.
-	data := make([]float64, total)
+	// Complex data go straight to their complex128 array (component c of
+	// entry e at place 2e + c), without a real copy first.
+	var data []float64
+	var cd []complex128
+	if parts == 2 {
+		cd = make([]complex128, total/2)
+	} else {
+		data = make([]float64, total)
+	}
 	ri, mi, ni := int(r), int(m), int(n)
 	place := func(s int) int { return s }
 	if fortran {
@@ -367,7 +376,13 @@ func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, erro
 			if err != nil {
 				return Input{}, fmt.Errorf("%w: npy: value %d: %v", ErrFormat, done, err)
 			}
-			data[place(done)] = v
+			if at := place(done); cd == nil {
+				data[at] = v
+			} else if z := &cd[at/2]; at%2 == 0 {
+				*z = complex(v, imag(*z))
+			} else {
+				*z = complex(real(*z), v)
+			}
 			done++
 		}
 	}
@@ -376,10 +391,6 @@ func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, erro
 		return Input{}, fmt.Errorf("%w: npy: trailing bytes after %d values", ErrFormat, total)
 	}
 	if parts == 2 {
-		cd := make([]complex128, total/2)
-		for i := range cd {
-			cd[i] = complex(data[2*i], data[2*i+1])
-		}
 		return Input{Field: Complex, Complex: ComplexBasis{Count: ri, Rows: mi, Cols: ni, Data: cd}}, nil
 	}
 	return Input{Field: Real, Real: Basis{Count: ri, Rows: mi, Cols: ni, Data: data}}, nil
@@ -647,12 +658,23 @@ func readTextInput(rd io.Reader, maxBytes, size int64) (Input, error) {
 	if size >= 0 && int64(total) > (size+1)/2 {
 		return Input{}, fmt.Errorf("%w: text: truncated: %d numbers declared, a file of %d bytes holds at most %d", ErrFormat, total, size, (size+1)/2)
 	}
-	// Grown as numbers arrive (a text file is at least twice as large as
-	// the count it holds, so growth never exceeds the data's bound).
-	data := make([]float64, 0, min(total, 1<<17))
+	// When the stream's length is known, the declared count has been
+	// checked against it (and against the memory limit): the array is
+	// allocated at its final size, so reading makes no copies (growing by
+	// append would hold the old and the new array at once, about twice
+	// the data). Otherwise it grows as numbers arrive, so that a header
+	// alone cannot make it allocate (a text file is at least twice as large
+	// as the count it holds, so growth never exceeds the data's bound).
+	start := min(total, 1<<17)
+	if size >= 0 {
+		start = total
+	}
+	var data []float64
 	var cdata []complex128
 	if isComplex {
-		cdata = make([]complex128, 0, min(total, 1<<17))
+		cdata = make([]complex128, 0, start)
+	} else {
+		data = make([]float64, 0, start)
 	}
 	for len(data)+len(cdata) < total {
 		t, ln, err := next()

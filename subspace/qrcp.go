@@ -81,7 +81,8 @@ type qrFactors struct {
 	perm   []int     // perm[j] = copied column in pivot position j
 	diag   []float64 // R_jj
 	beta   []float64 // H_j = I − beta_j v_j v_jᵀ, v_j stored in row j from entry j
-	rt     []float64 // Rᵀ, rr×k row-major: row j is column j of R (pivot order)
+	rsave  []float64 // R's first k columns, saved by saveR for the reconstruction (see there)
+	sc     scratch   // the factorisation's product buffers, reused by formQ and complement
 	left   float64   // norm of the first column left out by the rank decision (0: none)
 	blocks []qrBlk
 }
@@ -145,7 +146,8 @@ func factorQR(a []float64, rr, L int, tol float64, stop func() bool, g *gemmPool
 		q.f.perm[i] = i
 	}
 	q.run()
-	q.buildRt()
+	q.f.k = len(q.f.diag)
+	q.f.sc = scratch{wm: q.sc.wm, w2: q.sc.w2} // the block products' buffers, the largest
 	return q.f
 }
 
@@ -529,7 +531,8 @@ func (q *qrRun) downdate(t, jj int, tol3z float64) {
 // j0..j0+nb−1 of the factored array from entry j0 on (row stride L), the
 // entries before each reflector's first entry being zero. During the
 // factorisation those entries hold R₁₁ (saved, zeroed and restored by
-// block); once R is copied out (buildRt) clearJunk zeroes them for good.
+// block); clearJunk zeroes them for good once R is no longer needed there
+// (saved by saveR, or not wanted).
 
 // blockT returns T of the block reflector of the nb reflectors v (w
 // entries each, row stride ld) with factors beta: H_0 ⋯ H_{nb−1} =
@@ -631,23 +634,41 @@ func (q *qrRun) block(j, bp, pr int) bool {
 	return true
 }
 
-// buildRt copies R from the factored array into f.rt (rr×k, row j = column
-// j of R).
-func (q *qrRun) buildRt() {
-	f, L := q.f, q.L
-	k := len(f.diag)
-	f.k = k
-	f.rt = make([]float64, q.rr*k)
-	for i := 0; i < q.rr; i++ {
-		copy(f.rt[i*k:i*k+min(i, k)], q.a[i*L:i*L+min(i, k)])
-		if i < k {
-			f.rt[i*k+i] = f.diag[i]
+// saveR copies the first k columns of R out of the factored array a, the
+// part that forming Q in place overwrites, into f.rsave, for the
+// reconstruction (subspace.go). They are stored the way reconstruction
+// reads them: for each chunk [c0, c1) of reconChunk(rr) columns (c0 < k),
+// the rows c0..w−1 of Rᵀ (w = min(c1, k)) as a dense (w − c0)×w block, row
+// j holding R's column j: R_0j … R_{j−1,j} (row j of a before its
+// diagonal), R_jj, then zeros. That is about k²/2 + reconChunk(rr)·k/2
+// words instead of the rr·k of a full Rᵀ, and each chunk is one operand
+// of a product, read in place. The other columns j ≥ k of R (present
+// when the rank decision left columns out) are not copied: they are the
+// first k entries of row j of a, which forming Q (rows 0..k−1 only) and
+// the complement leave alone.
+func (f *qrFactors) saveR(a []float64, L int) {
+	k, chunk := f.k, reconChunk(f.rr)
+	n := 0
+	for c0 := 0; c0 < k; c0 += chunk {
+		w := min(c0+chunk, k)
+		n += (w - c0) * w
+	}
+	f.rsave = make([]float64, n)
+	off := 0
+	for c0 := 0; c0 < k; c0 += chunk {
+		w := min(c0+chunk, k)
+		for j := c0; j < w; j++ {
+			row := f.rsave[off+(j-c0)*w : off+(j-c0+1)*w]
+			copy(row[:j], a[j*L:j*L+j])
+			row[j] = f.diag[j]
 		}
+		off += (w - c0) * w
 	}
 }
 
 // clearJunk zeroes the entries before the diagonal of rows 0..k−1 of a
-// (R's columns, copied to rt), so that each row holds its reflector alone.
+// (R's first k columns, saved by saveR when needed), so that each row
+// holds its reflector alone.
 func (f *qrFactors) clearJunk(a []float64, L int) {
 	for t := 0; t < f.k; t++ {
 		clear(a[t*L : t*L+t])
@@ -669,7 +690,17 @@ func (f *qrFactors) formQ(a []float64, L int, stop func() bool) {
 func (f *qrFactors) formQWith(g *gemmPool, a []float64, L int, stop func() bool, done func(float64)) {
 	k := f.k
 	f.clearJunk(a, L)
-	var sc scratch
+	// The products' intermediates grow by a block's rows from block to
+	// block: sized once for the largest (the rows after the first block;
+	// the factorisation's, reused, are usually large enough already), so
+	// that the blocks do not leave a trail of ever larger buffers (about
+	// k² words in all) for the garbage collector.
+	sc := &f.sc
+	if len(f.blocks) > 0 {
+		m := k - f.blocks[0].nb // the rows after the first block, the most
+		grow(&sc.wm, m*qrNB)
+		grow(&sc.w2, m*qrNB)
+	}
 	for bi := len(f.blocks) - 1; bi >= 0; bi-- {
 		if stop() {
 			return
@@ -678,7 +709,7 @@ func (f *qrFactors) formQWith(g *gemmPool, a []float64, L int, stop func() bool,
 		j0, nb := bl.j0, bl.nb
 		w := L - j0
 		v := a[j0*L+j0:]
-		if m := k - j0 - nb; m > 0 && !applyBlock(g, v, L, bl.t, nb, w, false, a[(j0+nb)*L+j0:], m, L, stop, &sc) {
+		if m := k - j0 - nb; m > 0 && !applyBlock(g, v, L, bl.t, nb, w, false, a[(j0+nb)*L+j0:], m, L, stop, sc) {
 			return
 		}
 		// W_own = E·Vᵀ (W_own[i][s] = V_s[i]) and W₂ = W_own·Tᵀ.
@@ -727,13 +758,13 @@ func (f *qrFactors) complement(g *gemmPool, a []float64, L int, stop func() bool
 		out[t*L+k+t] = 1
 	}
 	f.clearJunk(a, L)
-	var sc scratch
+	sc := &f.sc
 	for bi := len(f.blocks) - 1; bi >= 0 && s > 0; bi-- {
 		if stop() {
 			return out
 		}
 		bl := f.blocks[bi]
-		if !applyBlock(g, a[bl.j0*L+bl.j0:], L, bl.t, bl.nb, L-bl.j0, false, out[bl.j0:], s, L, stop, &sc) {
+		if !applyBlock(g, a[bl.j0*L+bl.j0:], L, bl.t, bl.nb, L-bl.j0, false, out[bl.j0:], s, L, stop, sc) {
 			return out
 		}
 		if done != nil {

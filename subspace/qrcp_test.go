@@ -322,14 +322,15 @@ func TestNewProgress(t *testing.T) {
 // New allocates no more than workBytes promises (the memory limit is
 // checked against workBytes before anything is allocated), on the shapes
 // of each path: one greedy panel, sketched pivots, W stored, W⊥ stored,
-// more matrices than entries, a low rank. Allocation is counted in total
+// more matrices than entries, a low rank, more Gram panels than fit in the
+// reconstruction's buffer (500 of 2×500). Allocation is counted in total
 // (runtime.MemStats.TotalAlloc), which bounds the peak from above.
 func TestNewAllocationWithinWorkBytes(t *testing.T) {
 	rng := rand.New(rand.NewPCG(51, 52))
 	for _, b := range []Basis{
 		randBasis(rng, 40, 8, 9), randBasis(rng, 60, 8, 9), randBasis(rng, 300, 20, 20),
 		randBasis(rng, 150, 20, 20), randBasis(rng, 500, 10, 20), lowRank(rng, 300, 20, 20, 170, nil),
-		randBasis(rng, 2, 2, 2000),
+		randBasis(rng, 2, 2, 2000), randBasis(rng, 500, 2, 500),
 	} {
 		var before, after runtime.MemStats
 		runtime.GC()

@@ -31,7 +31,6 @@ import (
 	"fmt"
 	"math"
 
-	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 
 	"github.com/segre-lab/segre/internal/accurate"
@@ -312,6 +311,22 @@ func unitScale(row []float64, nrm float64) (f float64, sh int) {
 // promise is the rank rule of Options.RankTol (kept exactly, see qrcp.go)
 // and the reconstruction error it reports, which is computed afresh from
 // the caller's data and the stored Q and R.
+//
+// Memory (issue 16). The caller's data are only read. Their one copy, the
+// normalised rr×L array, is factored in place and turned into Q in place
+// (as LAPACK's xORGQR does), and when W is stored its first k rows are
+// the stored vectors, without a copy. Forming Q overwrites the first k
+// columns of R, which the reconstruction needs afterwards: they are saved
+// first (saveR, about k²/2 words, the one other large array; R's other
+// columns stay in the array's rows k..rr−1). The reconstruction's chunk
+// and the Gram matrix's panels share one buffer (a few percent of the
+// copy), the block products share theirs, and the Gram matrix is never
+// whole (orthogonality). So New holds at most about rr·L + k²/2 words
+// beyond the caller's data, plus the stored complement when W⊥ is stored;
+// workBytes bounds it from above. When W is stored and the rank decision
+// left columns out (rr > k), the stored vectors keep the whole array
+// alive (its last rr − k rows unused): copying them out would cost k·L
+// more words at the peak.
 func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int64, opt Options) (*Subspace, error) {
 	m, n := b.Rows, b.Cols
 	L := m * n
@@ -326,6 +341,7 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	if stop() {
 		return cancelled()
 	}
+	f.saveR(a, L)
 	k := f.k
 	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: b.Count, zeros: in.zeros, rankLeft: f.left}
 	if k > 0 {
@@ -338,7 +354,8 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	}
 	f.formQWith(g, a, L, stop, pr.add)
 	qw := a[:k*L]
-	w.recon = reconstruction(g, b.Data, in.orig, in.scale, in.shift, f, qw, L, stop)
+	var work []float64 // the reconstruction's chunk, then the Gram matrix's panel
+	w.recon = reconstruction(g, b.Data, in.orig, in.scale, in.shift, f, a, L, stop, &work)
 	pr.add(float64(rr) * float64(k) * float64(L))
 	if !w.comp {
 		w.s = k
@@ -346,7 +363,7 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	}
 	a, qw, f = nil, nil, nil // release the input copy (the stored complement does not need it)
 	w.sumSq = accurate.SumSqUpper(w.q)
-	w.orthFl, w.eta = orthogonalityWith(g, w.q, w.s, L, w.sumSq, stop)
+	w.orthFl, w.eta = orthogonalityWith(g, w.q, w.s, L, w.sumSq, stop, &work)
 	if stop() {
 		return cancelled()
 	}
@@ -357,35 +374,55 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 // workBytes estimates New's peak working storage in bytes for r matrices of
 // L entries, from the allocations of factor (an upper bound: they do not
 // all live at once). With k = min(r, L), s the number of vectors stored
-// (min(k, L−k)), nb = qrNB and p = qrNB + qrOver, in 8-byte words:
-//   - the normalised copy, factored in place: r·L; R: r·k; the blocks' T:
-//     k·nb; pivots, norms and factors: 3r + 2k;
+// (min(k, L−k)), nb = qrNB, p = qrNB + qrOver and c = reconChunk(r), in
+// 8-byte words:
+//   - the normalised copy, factored in place and turned into Q: r·L; the
+//     first k columns of R, saved for the reconstruction (saveR): at most
+//     Σ_{j<k} (j + c) ≤ k(k+1)/2 + c·k; the blocks' T: k·nb; pivots, norms
+//     and factors: 3r + 2k;
 //   - the block products' intermediates (rows ≤ r: the complement, the
-//     only other row count, is stored only when L − k < k ≤ r), once in
-//     the factorisation, in forming Q and in the complement: 3·2nb·r; the
-//     saved triangle and the Gram matrix of a block: 2nb²; formQ's slice
-//     of a block's columns: nb·formCols;
+//     only other row count, is stored only when L − k < k ≤ r), counted
+//     three times (the factorisation, forming Q and the complement share
+//     them, forming Q growing them at most once): 3·2nb·r; the saved
+//     triangle and the Gram matrix of a block: 2nb²; formQ's slice of a
+//     block's columns: nb·formCols;
 //   - the sketch, when used: r·p + p·sketchCols + 2nb·p, and the choice's
 //     vectors: 6r + 2nb;
-//   - the reconstruction's chunk: reconChunk(r)·L; the stored complement
-//     ((L−k)·L, when stored); the Gram matrix of the stored vectors: s²;
+//   - the reconstruction's chunk, c·L, then the Gram matrix's panels in the
+//     same buffer, s·min(s, gramPanel) (counted apart: the buffer may be
+//     grown); the stored complement ((L−k)·L, when stored);
 //   - the packing buffers of the products (gemmBytes).
+//
+// So the peak is about r·L + k²/2 words beyond the caller's input (and
+// the stored complement, when stored): the input copy becomes the stored
+// basis, and R's triangle is the one other large array.
 func workBytes(r, L int) int64 {
 	k := int64(min(r, L))
 	r64, L64 := int64(r), int64(L)
 	s := min(k, L64-k)
-	nb, p := int64(qrNB), int64(qrNB+qrOver)
-	b := r64*L64 + r64*k + k*nb + 3*r64 + 2*k
+	nb, p, c := int64(qrNB), int64(qrNB+qrOver), int64(reconChunk(r))
+	b := r64*L64 + k*(k+1)/2 + c*k + k*nb + 3*r64 + 2*k
 	b += 6*nb*r64 + 2*nb*nb + nb*formCols
 	if r > qrPanelMax && min(r, L) > qrNB {
 		b += r64*p + p*sketchCols + 2*nb*p + 6*r64 + 2*nb
 	}
-	b += int64(reconChunk(r)) * L64
+	b += c*L64 + s*min(s, gramPanel)
 	if L64-k < k {
 		b += (L64 - k) * L64
 	}
-	b += s * s
 	return 8*b + gemmBytes(max(r, L))
+}
+
+// complexWorkBytes estimates the bytes NewComplex needs for r complex
+// matrices of m×n, the complex input included: the input (16 bytes an
+// entry), its realified copy (2r real vectors of 2mn entries), New's
+// working storage for it (workBytes), W” (up to k₂ = min(2r, 2mn) vectors
+// of 4mn entries) and the panels of its Gram matrix (k₂·min(k₂, gramPanel)
+// words). The caller has checked that 16·r·m·n and 4·m·n·r do not overflow.
+func complexWorkBytes(r, m, n int64) int64 {
+	data := 16 * r * m * n
+	k2 := min(2*r, 2*m*n)
+	return data + 2*data + workBytes(int(2*r), int(2*m*n)) + 8*k2*4*m*n + 8*k2*min(k2, gramPanel)
 }
 
 func mulOK(a, b int) (int, bool) {
@@ -401,21 +438,36 @@ func mulOK(a, b int) (int, bool) {
 
 // reconstruction returns ‖B̂Π − QR‖_F/‖B̂‖_F, recomputing each unit-normalised
 // input column from the caller's data, in chunks to bound the memory: the
-// chunk's columns of QR are one blocked product (R is upper trapezoidal,
-// so the columns c0..c1−1 need only the first min(c1, k) rows of Q).
-// It returns early, with a meaningless value, when stop reports true.
-func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, shift []int, f *qrFactors, q []float64, L int, stop func() bool) float64 {
+// chunk's columns of QR are blocked products (R is upper trapezoidal, so
+// the columns c0..c1−1 need only the first min(c1, k) rows of Q). a is the
+// factored array after formQ: its first k rows are Q; the columns of R
+// come from f.rsave (those before k) and from the rows k.. of a, in
+// place (the others; see saveR). The chunk's columns of QR go to *work,
+// grown if needed. It returns early, with a meaningless value, when stop
+// reports true.
+//
+// A chunk straddling k is two products, one per source of R's columns;
+// every entry of a product is the same sum in the same order however its
+// rows are grouped (gemm.go), so the result is the one of a single
+// product over a full Rᵀ.
+func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, shift []int, f *qrFactors, a []float64, L int, stop func() bool, work *[]float64) float64 {
 	rr, k := len(orig), f.k
 	chunk := reconChunk(rr)
-	buf := make([]float64, chunk*L)
+	q := a[:k*L]
+	buf := grow(work, chunk*L)
 	var ss float64
+	off := 0 // start of the chunk's block in f.rsave
 	for c0 := 0; c0 < rr && !stop(); c0 += chunk {
 		c1 := min(c0+chunk, rr)
 		nc := c1 - c0
 		qr := buf[:nc*L]
 		clear(qr)
-		if kk := min(c1, k); kk > 0 {
-			g.mul(nc, L, kk, false, operand{f.rt[c0*k:], k, false}, operand{q, L, false}, qr, L, stop)
+		if w := min(c1, k); c0 < w {
+			g.mul(w-c0, L, w, false, operand{f.rsave[off:], w, false}, operand{q, L, false}, qr, L, stop)
+			off += (w - c0) * w
+		}
+		if lo := max(c0, k); lo < c1 && k > 0 {
+			g.mul(c1-lo, L, k, false, operand{a[lo*L:], L, false}, operand{q, L, false}, qr[(lo-c0)*L:], L, stop)
 		}
 		for j := c0; j < c1; j++ {
 			col := f.perm[j]
@@ -445,45 +497,68 @@ func reconChunk(rr int) int { return min(rr, max(32, min(256, rr/8))) }
 //
 // Derivation: each entry of the float Gram matrix Ĝ = fl(SSᵀ) satisfies
 // |Ĝ_ij − G_ij| ≤ γ_L Σ_ℓ|S_iℓ||S_jℓ| ≤ γ_L‖s_i‖‖s_j‖ (Higham 2002, eq. 3.5,
-// any summation order; Cauchy–Schwarz). Ĝ is formed by gemmPool.gram: each
-// product S_iℓ·S_jℓ rounded to binary64 (never fused with its addition:
+// any summation order; Cauchy–Schwarz). Ĝ is the symmetric matrix whose
+// entries on and below the diagonal gemmPool.gramCols forms: each product
+// S_iℓ·S_jℓ rounded to binary64 (never fused with its addition:
 // tile4x12Sep, or float64(a*b) in Go), the L rounded products summed in
 // slices of tileK, each slice from zero in one register lane, the slice
 // sums added in turn to the entry (first to an exact zero) — one summation
 // order among those eq. 3.5 covers, so each term meets at most L roundings
-// including its product's. The matrix [‖s_i‖‖s_j‖] has
-// Frobenius norm Σ‖s_i‖² = ‖S‖_F². So ‖G − I‖₂ ≤ ‖Ĝ − I‖_F + γ_L‖S‖_F², each
-// term evaluated with upward rounding (Ĝ_ij − δ_ij is rounded once more, and
+// including its product's. The matrix [‖s_i‖‖s_j‖] has Frobenius norm
+// Σ‖s_i‖² = ‖S‖_F². So ‖G − I‖₂ ≤ ‖Ĝ − I‖_F + γ_L‖S‖_F², each term
+// evaluated with upward rounding (Ĝ_ij − δ_ij is rounded once more, and
 // the squares and sum add s²+1 roundings).
 //
-// The Gram matrix is formed in blocks with stop checked between them, on
-// all cores (the same result for any number of workers); if stop reports
-// true the result is meaningless (the caller discards it).
+// Memory. Ĝ is never stored whole (s² words, half the stored basis when
+// s = L/2: 128 MB for 4000 matrices of 2×4000): it is formed gramPanel
+// columns at a time into one buffer of s·gramPanel words, and each
+// panel's entries are added to the sum of squares before the next panel
+// is formed. The sum runs over the
+// columns i in order and, in each, over the rows j ≥ i in order: entry
+// (j, i) of Ĝ has the bits of entry (i, j) (gramCols), so this is the sum
+// over the rows of the upper triangle, in the order of a row-major pass,
+// whatever the panel width.
+//
+// The Gram matrix is formed on all cores (the same result for any number
+// of workers) with stop checked inside its products; if stop reports true
+// the result is meaningless (the caller discards it).
 // sf is a proven upper bound on ‖S‖_F².
 func orthogonality(q []float64, s, L int, sf float64, stop func() bool) (computed, bound float64) {
-	return orthogonalityWith(newGemmPool(max(s, L)), q, s, L, sf, stop)
+	return orthogonalityWith(newGemmPool(max(s, L)), q, s, L, sf, stop, nil)
 }
 
-// orthogonalityWith is orthogonality with the caller's product pool.
-func orthogonalityWith(gp *gemmPool, q []float64, s, L int, sf float64, stop func() bool) (computed, bound float64) {
+// gramPanel is the number of columns of the Gram matrix that
+// orthogonality forms at a time.
+const gramPanel = tileN
+
+// orthogonalityWith is orthogonality with the caller's product pool and,
+// when work is not nil, a buffer for the panels (grown if too short).
+func orthogonalityWith(gp *gemmPool, q []float64, s, L int, sf float64, stop func() bool, work *[]float64) (computed, bound float64) {
 	if s == 0 {
 		return 0, 0
 	}
-	g := blas64.Symmetric{N: s, Stride: s, Data: make([]float64, s*s), Uplo: blas.Upper}
-	if !gp.gram(s, L, q, g.Data, stop) {
-		return math.Inf(1), math.Inf(1)
+	P := min(s, gramPanel)
+	if work == nil {
+		work = new([]float64)
 	}
+	buf := grow(work, s*P)
 	var ss float64
-	for i := 0; i < s; i++ {
-		for j := i; j < s; j++ {
-			v := g.Data[i*s+j]
-			if i == j {
-				v -= 1
-			}
-			if i == j {
-				ss += float64(v * v)
-			} else {
-				ss += float64(2 * v * v)
+	for j0 := 0; j0 < s; j0 += P {
+		j1 := min(s, j0+P)
+		if !gp.gramCols(s, L, q, j0, j1, buf, P, stop) {
+			return math.Inf(1), math.Inf(1)
+		}
+		for i := j0; i < j1; i++ {
+			for j := i; j < s; j++ {
+				v := buf[(j-j0)*P+i-j0]
+				if i == j {
+					v -= 1
+				}
+				if i == j {
+					ss += float64(v * v)
+				} else {
+					ss += float64(2 * v * v)
+				}
 			}
 		}
 	}
