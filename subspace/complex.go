@@ -163,10 +163,10 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 		limit = DefaultMaxBytes
 	}
 	// The complex input, its realified copy and New's working storage, W''
-	// (up to 2r rows of 4mn) and its Gram matrix.
-	rr := int64(2 * cb.Count)
-	k2 := min(rr, int64(2*L))
-	need := 16*int64(total) + 8*rr*int64(2*L) + workBytes(int(rr), 2*L) + 8*k2*int64(L4) + 8*k2*k2
+	// (up to 2r rows of 4mn) and one panel of its Gram matrix: the count
+	// the readers use (complexWorkBytes), so that both refuse the same
+	// shapes.
+	need := complexWorkBytes(int64(cb.Count), int64(cb.Rows), int64(cb.Cols))
 	if opt.MaxBytes >= 0 && (need > limit || need < 0) {
 		return nil, fmt.Errorf("%w: %d complex matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, cb.Count, cb.Rows, cb.Cols, need, limit)
 	}
