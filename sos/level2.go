@@ -41,6 +41,25 @@ import (
 // Then for any t: if tD − Ĉ − K ⪰ μI (μ from the verified Cholesky test on
 // the float matrix, rounding of forming it included), and ‖c‖² ≤ cᵀDc = 1,
 // h ≤ t − min(μ, 0) + Σ_o|s_o| + δ + ‖Ĉ − Ĉ_exact‖.
+//
+// Solving. LevelTwo solves the relaxation in its moment form (the orbit
+// values as the variables, level2sdp.go), block diagonal under the sign
+// symmetries of P̂ (symmetry.go); LevelTwoFirstOrder solves the same form
+// by the boundary point method (level2first.go). Where block structure
+// comes from, and where it does not: a symmetry reduction (K. Gatermann,
+// P. A. Parrilo, J. Pure Appl. Algebra 192, 2004) needs a group acting on
+// the relaxation that fixes its data. The orthogonal changes of
+// coordinates x ↦ Ux, y ↦ Vy act on the moments and preserve D and the
+// orbit equalities, but fix Ĉ only when (U⊗V)W = W, which for a generic W
+// leaves U = ±I, V = ±I, acting trivially on ρ (every row has the same
+// sign). The symmetric-extension structure of DPS 2004 (the y⊗y factor
+// restricted to Sym²(R^n)) is already in the coordinates, and in the real
+// case the partial transposes of ρ are equal to ρ (the orbit equalities)
+// rather than further PSD blocks. So a generic 6×6 instance keeps one
+// block of order 126, and its gain is the moment form (2645 variables
+// against the 5355 equalities of the entry form; the interior-point
+// method's cost is their cube); instances with coordinate structure
+// (embedded, sparse, antisymmetric) also split into blocks.
 
 // extension holds the level-two structure of an m×n subspace.
 type extension struct {
@@ -52,6 +71,7 @@ type extension struct {
 	delta   float64   // P ⪯ P̂ + δI
 	orbit   []int     // orbit id of each upper-triangle entry (a ≤ b), index a·dim+b
 	norbits int
+	ph      *mat.SymDense // P̂ (for the sign symmetries of the solver)
 }
 
 func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
@@ -68,7 +88,7 @@ func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
 		}
 	}
 	ph, delta := ProjectorBound(w)
-	e.delta = delta
+	e.delta, e.ph = delta, ph
 	// terms(pq) lists the (a, b) with b_pq = Σ e_a⊗e_b.
 	terms := func(t [2]int) [][2]int {
 		if t[0] == t[1] {
@@ -129,53 +149,6 @@ func newExtension(w *subspace.Subspace, limit int) (*extension, error) {
 	}
 	e.norbits = len(ids)
 	return e, nil
-}
-
-// problem builds the level-two SDP: constraint 0 is ⟨D, ρ⟩ = 1, and each
-// other constraint says ρ_u = ρ_r for an entry u and the first entry r of
-// its orbit.
-func (e *extension) problem() (sdp.Problem, [][2]int) {
-	dim := e.dim
-	p := sdp.Problem{Blocks: []int{dim}}
-	for a := 0; a < dim; a++ {
-		for b := a; b < dim; b++ {
-			if v := e.chat[a*dim+b]; v != 0 {
-				p.C = append(p.C, sdp.Entry{I: a, J: b, V: v})
-			}
-		}
-	}
-	d := make([]sdp.Entry, dim)
-	for a := 0; a < dim; a++ {
-		d[a] = sdp.Entry{I: a, J: a, V: e.dval(a)}
-	}
-	p.A = append(p.A, d)
-	p.B = append(p.B, 1)
-	pairs := [][2]int{{0, 0}}
-	first := make([]int, e.norbits)
-	for i := range first {
-		first[i] = -1
-	}
-	half := func(a, b int) float64 {
-		if a == b {
-			return 1
-		}
-		return 0.5
-	}
-	for a := 0; a < dim; a++ {
-		for b := a; b < dim; b++ {
-			o := e.orbit[a*dim+b]
-			if first[o] < 0 {
-				first[o] = a*dim + b
-				continue
-			}
-			r := first[o]
-			ra, rb := r/dim, r%dim
-			p.A = append(p.A, []sdp.Entry{{I: a, J: b, V: half(a, b)}, {I: ra, J: rb, V: -half(ra, rb)}})
-			p.B = append(p.B, 0)
-			pairs = append(pairs, [2]int{a*dim + b, r})
-		}
-	}
-	return p, pairs
 }
 
 func (e *extension) dval(a int) float64 {
@@ -239,8 +212,13 @@ func (e *extension) bound(t float64, k []float64, stop func() bool) float64 {
 }
 
 // LevelTwo is a Searcher for the level-two relaxation (see the comment at
-// the top of level2.go): certified bound from its dual, witness rounded
-// from its moment matrix and polished. It handles m·n(n+1)/2 ≤ 400.
+// the top of level2.go) by the interior-point method on its moment form,
+// block diagonal under the sign symmetries of P̂ (level2sdp.go):
+// certified bound from the solver's primal (the sum-of-squares side),
+// witness rounded from its dual (the moment matrix) and polished. It
+// handles m·n(n+1)/2 ≤ 400 with at most maxLevelTwoVars moment variables
+// after the reduction (6×6 has 2645 without symmetry, 7×7 5879; 8×8 with
+// 11879 is refused: LevelTwoFirstOrder serves it).
 //
 // The zero value is ready to use.
 type LevelTwo struct {
@@ -261,6 +239,11 @@ type LevelTwoCertificate struct {
 	T    float64
 	K    []float64
 }
+
+// maxLevelTwoVars bounds the moment variables of LevelTwo's SDP: its
+// Schur complement and factor take 16 bytes times their square (576 MB
+// at the bound) and a factorisation a third of their cube in flops.
+const maxLevelTwoVars = 6000
 
 // maxVerifyOrder bounds the order m·n(n+1)/2 of the level-two certificates
 // VerifyLevelTwo accepts (the matrices it forms take 8·order² bytes each).
@@ -317,8 +300,12 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 	if err != nil {
 		return res, err
 	}
-	prob, pairs := e.problem()
-	sol, err := sdp.Solve(ctx, prob, sdp.Settings{MaxIter: l.MaxIter})
+	f := newMomentForm(e, signGroup(e.ph, m, n))
+	if v := len(f.kept) - 1; v > maxLevelTwoVars {
+		return res, fmt.Errorf("%w: the level-two SDP of %d×%d has %d moment variables (the interior-point method handles %d; see LevelTwoFirstOrder)",
+			ErrTooLarge, m, n, v, maxLevelTwoVars)
+	}
+	sol, err := sdp.Solve(ctx, f.problem(), sdp.Settings{MaxIter: l.MaxIter})
 	if sol == nil {
 		return res, err
 	}
@@ -326,27 +313,7 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 	if sol.Status != sdp.Optimal {
 		res.Status, res.Limit = rankone.LimitReached, rankone.IterationLimit
 	}
-	// K = −Σ_{j≥1} y_j A_j (the dual: y₀D + Σ y_jA_j − Ĉ ⪰ 0).
-	dim := e.dim
-	k := make([]float64, dim*dim)
-	for j := 1; j < len(pairs); j++ {
-		u, r := pairs[j][0], pairs[j][1]
-		for _, q := range []struct {
-			idx  int
-			sign float64
-		}{{u, -1}, {r, 1}} {
-			a, b := q.idx/dim, q.idx%dim
-			v := q.sign * sol.Y[j]
-			if a != b {
-				v /= 2
-			}
-			k[a*dim+b] += v
-			if a != b {
-				k[b*dim+a] += v
-			}
-		}
-	}
-	t := float64(sol.Dual*(1+1e-12)) + 1e-15
+	t, k := f.certificate(sol.X)
 	hb := e.bound(t, k, func() bool { return ctx.Err() != nil })
 	if lo := rankone.DistanceLower(hb); lo > 0 {
 		res.Lower, res.LowerBy = lo, "sos level 2"
@@ -354,31 +321,42 @@ func (l *LevelTwo) Search(ctx context.Context, w *subspace.Subspace) (rankone.Re
 			*l.Keep = LevelTwoCertificate{M: m, N: n, T: t, K: k}
 		}
 	}
-	// Witness: the top eigenvector c of ρ is about x⊗(y_p y_q); its m×s
-	// reshaping has top left singular vector ≈ x and right vector ≈ (y_p y_q),
-	// whose symmetric n×n form has top eigenvector ≈ ±y. Then polish.
-	if _, vecs, ok := eigen.Sym(sol.X[0], true); ok {
-		top := mat.Col(nil, dim-1, vecs)
-		var svd mat.SVD
-		if svd.Factorize(mat.NewDense(m, e.s, top), mat.SVDThin) {
-			var u, v mat.Dense
-			svd.UTo(&u)
-			svd.VTo(&v)
-			x := mat.Col(nil, 0, &u)
-			r := mat.NewSymDense(n, nil)
-			for k, t := range e.pq {
-				r.SetSym(t[0], t[1], v.At(k, 0))
-			}
-			y := make([]float64, n)
-			tmp := mat.NewVecDense(n, nil)
-			rankone.TopEigen(func(dst, src []float64) { // R² ⪰ 0: the sign of R does not matter
-				tmp.MulVec(r, mat.NewVecDense(n, src))
-				mat.NewVecDense(n, dst).MulVec(r, tmp)
-			}, y, 0, 0, 1e-12)
-			keepBetter(ctx, w, &res, x, y)
-		}
+	if ctx.Err() == nil {
+		roundLevelTwo(ctx, w, e, f.full(sol.Z), &res)
 	}
 	return finishResult(ctx, res, begin, err)
+}
+
+// roundLevelTwo rounds the level-two moment matrix rho (dim×dim,
+// row-major) to a witness and keeps it if better. The top eigenvector c
+// of ρ (Lanczos) is about x⊗(y_p y_q); its m×s reshaping has top left
+// singular vector ≈ x and right vector ≈ (y_p y_q), whose symmetric n×n
+// form has top eigenvector ≈ ±y. Then polish.
+func roundLevelTwo(ctx context.Context, w *subspace.Subspace, e *extension, rho []float64, res *rankone.Result) {
+	m, n := e.m, e.n
+	top := make([]float64, e.dim)
+	if _, calls := eigen.Top(eigen.SymApply(mat.NewSymDense(e.dim, rho)), top, 0, 0, 1e-10); calls == 0 {
+		return
+	}
+	var svd mat.SVD
+	if !svd.Factorize(mat.NewDense(m, e.s, top), mat.SVDThin) {
+		return
+	}
+	var u, v mat.Dense
+	svd.UTo(&u)
+	svd.VTo(&v)
+	x := mat.Col(nil, 0, &u)
+	r := mat.NewSymDense(n, nil)
+	for k, t := range e.pq {
+		r.SetSym(t[0], t[1], v.At(k, 0))
+	}
+	y := make([]float64, n)
+	tmp := mat.NewVecDense(n, nil)
+	rankone.TopEigen(func(dst, src []float64) { // R² ⪰ 0: the sign of R does not matter
+		tmp.MulVec(r, mat.NewVecDense(n, src))
+		mat.NewVecDense(n, dst).MulVec(r, tmp)
+	}, y, 0, 0, 1e-12)
+	keepBetter(ctx, w, res, x, y)
 }
 
 // EigenBound is the eigenvalue-only bound of the symmetric extension (no
