@@ -52,13 +52,18 @@ const maxSOSSize = 100
 // budget of a minute is needed).
 const maxFirstOrderSize = 1024
 
-// maxLevelTwoOrder is the largest order m·n(n+1)/2 of the level-two
-// relaxation on the ladder (6×6 is order 126, 7×7 order 196); the cost
-// model decides whether it fits in the time left. Level two is on the
-// ladder because level one is weak exactly where it is needed
+// maxLevelTwoOrder is the largest order m·n(n+1)/2 of the interior-point
+// level two on the ladder (6×6 is order 126, measured 4.1 s; 4×8 is 144);
+// the cost model decides whether it fits in the time left. Level two is on
+// the ladder because level one is weak exactly where it is needed
 // (PPT-invariant projectors such as the UPB complements, where level one
 // proves nothing).
-const maxLevelTwoOrder = 200
+const maxLevelTwoOrder = 150
+
+// maxLevelTwoFirstOrder is the largest order of the first-order level two
+// on the ladder (sos.LevelTwoFirstOrder's own limit), which takes the
+// interior-point one's place when that is too large or does not fit.
+const maxLevelTwoFirstOrder = 1500
 
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
@@ -76,10 +81,12 @@ const maxComplexSOSSize = 25
 // interior-point form up to m·n = 100 for a real subspace, or 25 for a
 // complex one; for a real subspace, the first-order form up to
 // m·n = 1024 when the interior-point one is too large or does not fit in
-// the time left), then for a real subspace the
-// level-two relaxation, or, when level two does not fit, the two-copy
-// eigenvalue bound, and last branch-and-bound on a larger sphere (up to 12), which
-// proves what it can by the deadline. When Options.Members is set, Plan
+// the time left), then for a real subspace the two-copy eigenvalue bound
+// (only when the interior-point level two does not fit), the level-two
+// relaxation (interior point up to order m·n(n+1)/2 = 150, the first-order
+// form up to 1500 when that is too large or does not fit), and last
+// branch-and-bound on a larger sphere (dimension up to 12), which proves
+// what it can by the deadline. When Options.Members is set, Plan
 // returns it and Certify runs all of it side by side.
 func Plan(w *subspace.Subspace, opt Options) []rankone.Searcher {
 	if opt.Members != nil {
@@ -143,6 +150,7 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 	if real {
 		two := predictLevelTwo(w)
 		fits2 := m*n*(n+1)/2 <= maxLevelTwoOrder
+		l2 := &sos.LevelTwo{}
 		if _, ok := twoCopyOrder(w); ok {
 			lad = append(lad, rung{s: &sos.TwoCopy{}, predict: predictTwoCopy(w), skipIf: func(left time.Duration, _ map[string]bool) string {
 				if fits2 && two <= left {
@@ -152,7 +160,15 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 			}})
 		}
 		if fits2 {
-			lad = append(lad, rung{s: &sos.LevelTwo{}, predict: two})
+			lad = append(lad, rung{s: l2, predict: two})
+		}
+		if order := m * n * (n + 1) / 2; order <= maxLevelTwoFirstOrder {
+			lad = append(lad, rung{s: &sos.LevelTwoFirstOrder{}, predict: predictLevelTwoStep(w), skipIf: func(_ time.Duration, ran map[string]bool) string {
+				if ran[l2.Name()] {
+					return "not needed: the interior-point level two ran"
+				}
+				return ""
+			}})
 		}
 	}
 	if d := net.SideDimension(w); !small && d <= maxLadderBranchBoundSide {
@@ -185,6 +201,10 @@ func hooked(s rankone.Searcher, fn func(rankone.Progress)) {
 		if m.Progress == nil {
 			m.Progress = fn
 		}
+	case *sos.LevelTwoFirstOrder:
+		if m.Progress == nil {
+			m.Progress = fn
+		}
 	}
 }
 
@@ -197,12 +217,12 @@ func hooked(s rankone.Searcher, fn func(rankone.Progress)) {
 // Budgeted escalation. The members of Plan that start at once (the
 // flattening, the local searches, branch-and-bound on a small sphere) run
 // side by side; beside them one goroutine climbs the ladder of bounds in
-// order (level one, the two-copy bound or level two, branch-and-bound on a
+// order (level one, the two-copy bound, level two, branch-and-bound on a
 // larger sphere). A rung starts only while the gap is open and when the
 // cost model (cost.go: a power law in the size that drives each bound,
 // fitted to BenchmarkCostModel) predicts it fits in the time left; the
-// first-order level one and branch-and-bound keep what they have proven at
-// the deadline, so they start whenever their first step fits. A rung not
+// first-order forms and branch-and-bound keep what they have proven at the
+// deadline, so they start whenever their first step fits. A rung not
 // started is reported with Member.Skipped saying why. So Certify returns
 // before its budget only when the gap is met or when every bound that
 // applies has run to its end (Stop = NothingMore); a bound skipped for lack
@@ -221,9 +241,9 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		members = append(members, st.s)
 	}
 	var cover *net.Cover
-	var cert *sos.Certificate
+	var cert, certFirst *sos.Certificate
 	var zcert *sos.ComplexCertificate
-	var l2cert *sos.LevelTwoCertificate
+	var l2cert, l2first *sos.LevelTwoCertificate
 	if opt.Proof {
 		for _, s := range members {
 			switch mb := s.(type) {
@@ -243,13 +263,18 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 				}
 			case *sos.FirstOrder:
 				if mb.Keep == nil {
-					cert = &sos.Certificate{}
-					mb.Keep = cert
+					certFirst = &sos.Certificate{}
+					mb.Keep = certFirst
 				}
 			case *sos.LevelTwo:
 				if mb.Keep == nil {
 					l2cert = &sos.LevelTwoCertificate{}
 					mb.Keep = l2cert
+				}
+			case *sos.LevelTwoFirstOrder:
+				if mb.Keep == nil {
+					l2first = &sos.LevelTwoCertificate{}
+					mb.Keep = l2first
 				}
 			}
 		}
@@ -361,12 +386,16 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 		ev := proof.Evidence{W: w, InputSHA256: opt.inputHash, X: rep.X, Y: rep.Y, Cover: cover}
 		if cert != nil && cert.K != nil {
 			ev.Certificate = cert
+		} else if certFirst != nil && certFirst.K != nil {
+			ev.Certificate = certFirst // the interior-point level one did not run
 		}
 		if zcert != nil && zcert.Z != nil {
 			ev.ComplexCertificate = zcert
 		}
 		if l2cert != nil && l2cert.K != nil {
 			ev.LevelTwo = l2cert
+		} else if l2first != nil && l2first.K != nil {
+			ev.LevelTwo = l2first // the interior-point level two did not run
 		}
 		for _, o := range outs {
 			if o.Name == (&sos.TwoCopy{}).Name() && o.Err == nil && o.Result.Lower > 0 {

@@ -31,14 +31,18 @@ func (c powerLaw) at(n int) time.Duration {
 
 var (
 	// costLevelOne: the interior-point level one, N = m·n (SDP order).
-	costLevelOne = powerLaw{8.5e-12, 5.67}
+	costLevelOne = powerLaw{3.8e-9, 4.27}
 	// costLevelOneComplex: the complex (PPT) level one, N = m·n over C.
 	costLevelOneComplex = powerLaw{4.7e-7, 3.84}
-	// costFirstOrderStep: one iteration of the first-order level one (a
-	// dense eigendecomposition of order N = m·n).
-	costFirstOrderStep = powerLaw{3.7e-9, 3.0}
+	// costFirstOrderStep: one iteration of the first-order level one (the
+	// eigenpairs of one sign of a matrix of order N = m·n; anchored at
+	// 32×32, 0.4 s an iteration, sos.BenchmarkFirstOrder).
+	costFirstOrderStep = powerLaw{1.19e-8, 2.5}
 	// costLevelTwo: the interior-point level two, N = m·n(n+1)/2.
-	costLevelTwo = powerLaw{1.2e-8, 3.97}
+	costLevelTwo = powerLaw{6.8e-11, 5.13}
+	// costLevelTwoStep: one iteration of the first-order level two,
+	// N = m·n(n+1)/2.
+	costLevelTwoStep = powerLaw{1.4e-8, 2.46}
 	// costTwoCopy: the two-copy eigenvalue bound, N = the order of its
 	// matrix (twoCopyOrder).
 	costTwoCopy = powerLaw{7.3e-11, 3.1}
@@ -72,6 +76,11 @@ func predictFirstOrderStep(w *subspace.Subspace) time.Duration {
 func predictLevelTwo(w *subspace.Subspace) time.Duration {
 	m, n := w.Rows(), w.Cols()
 	return costLevelTwo.at(m * n * (n + 1) / 2)
+}
+
+func predictLevelTwoStep(w *subspace.Subspace) time.Duration {
+	m, n := w.Rows(), w.Cols()
+	return costLevelTwoStep.at(m * n * (n + 1) / 2)
 }
 
 // twoCopyOrder is the order of the matrix sos.EigenBound works on: k·n

@@ -36,8 +36,12 @@ func BenchmarkCostModel(b *testing.B) {
 	for _, n := range []int{8, 12, 16} {
 		rows = append(rows, row{"first-order", n, n, search(&sos.FirstOrder{MaxIter: firstOrderProbe}), func(w *subspace.Subspace) time.Duration { return firstOrderProbe * predictFirstOrderStep(w) }})
 	}
-	for _, n := range []int{3, 4, 5} {
+	for _, n := range []int{4, 5, 6} {
 		rows = append(rows, row{"level-two", n, n, search(&sos.LevelTwo{}), predictLevelTwo})
+	}
+	for _, n := range []int{6, 8, 10} {
+		rows = append(rows, row{"level-two-first-order", n, n, search(&sos.LevelTwoFirstOrder{MaxIter: firstOrderProbe}),
+			func(w *subspace.Subspace) time.Duration { return firstOrderProbe * predictLevelTwoStep(w) }})
 	}
 	for _, n := range []int{8, 12, 16} {
 		rows = append(rows, row{"two-copy", n, n, search(&sos.TwoCopy{}), predictTwoCopy})

@@ -6,6 +6,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/segre-lab/segre/proof"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/sos"
@@ -56,14 +57,15 @@ func TestLadderSkipsWhatDoesNotFit(t *testing.T) {
 
 // Certify does not return with budget left while a bound could still raise
 // Lower (issue 14: a 9×16 subspace stopped after 0.02 s of a 20 s budget,
-// "converged", with Lower 0). On a Gaussian 9×16 subspace of dimension 72
-// (whose gap no bound closes in a second) it runs until the budget and says
-// so, or meets the gap.
+// "converged", with Lower 0). On a Gaussian 12×12 subspace of dimension 72
+// (whose gap no bound closes in 1.5 s: the first-order level one proves
+// 0.3036 against the searches' 0.3146 then; a Gaussian 9×16 closes through
+// level one at once) it runs until the budget and says so, or meets the gap.
 func TestLadderUsesTheBudget(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs a 1.5 s budget")
 	}
-	w := mustNew(t, suite.Random(9, 16, 72, 1))
+	w := mustNew(t, suite.Random(12, 12, 72, 1))
 	budget := 1500 * time.Millisecond
 	rep, err := Certify(context.Background(), w, Options{Budget: budget})
 	if err != nil {
@@ -114,5 +116,29 @@ func TestPlanLadder(t *testing.T) {
 	}
 	if has(large, (&sos.TwoCopy{}).Name()) != 1 {
 		t.Errorf("12×12: the two-copy bound expected: %v", large)
+	}
+}
+
+// The proof keeps the certificate of the rung that ran: on the
+// antisymmetric 6×6 subspace (d* = √(1/2), suite.Antisymmetric's
+// derivation; the level-one relaxation is exact there, sos's tests) the
+// interior-point level one closes the gap while the first-order form after
+// it is skipped, and the proof's Lower argument must be its certificate
+// (a later rung must not replace the kept certificate by an empty one).
+func TestLadderProofKeepsTheRungThatRan(t *testing.T) {
+	in := suite.Antisymmetric(6)
+	w := mustNew(t, in)
+	rep, err := Certify(context.Background(), w, Options{Budget: time.Minute, Proof: true})
+	if err != nil || rep.Stop != GapReached {
+		t.Fatalf("stop %v, err %v", rep.Stop, err)
+	}
+	if rep.Proof == nil {
+		t.Fatalf("no proof: %v", rep.ProofError)
+	}
+	if got := rep.Proof.File.LowerArgument; got != proof.ArgSOS1 {
+		t.Errorf("proof argument %q, want %q", got, proof.ArgSOS1)
+	}
+	if c, err := proof.Check(context.Background(), rep.Proof, &in.Basis, nil); err != nil || c.Lower < in.Optimum*(1-1e-6) {
+		t.Errorf("re-check: %v, Lower %v, d* %v", err, c.Lower, in.Optimum)
 	}
 }
