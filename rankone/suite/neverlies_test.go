@@ -152,6 +152,12 @@ func TestNeverLies(t *testing.T) {
 		if i%3 == 1 {
 			searchers = append(searchers, &sos.TwoCopy{})
 		}
+		if m*n <= 16 && i%3 == 2 {
+			searchers = append(searchers, &sos.FirstOrder{MaxIter: 200})
+		}
+		if m*n <= 9 && i%10 == 5 {
+			searchers = append(searchers, &sos.LevelTwoFirstOrder{MaxIter: 200})
+		}
 		bs := intervals(ctx, w, searchers)
 		if i%3 == 0 {
 			if hb, err := sos.EigenBound(context.Background(), w); err == nil {
