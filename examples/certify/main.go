@@ -463,25 +463,35 @@ func writeText(out io.Writer, w *subspace.Subspace, rep segre.Report, source str
 	fmt.Fprintf(out, "stopped    %s after %.3gs\n", rep.Stop, rep.Elapsed.Seconds())
 	fmt.Fprintf(out, "\n%-28s %14s %14s %16s %9s\n", "strategy", "lower", "upper", "status", "seconds")
 	for _, m := range rep.Members {
+		if m.Skipped != "" {
+			continue // listed below: it proved nothing and found nothing
+		}
 		st := m.Result.Status.String()
 		switch {
 		case m.Err != nil:
 			st = "failed"
 		case m.Stopped:
 			st = "stopped at gap"
-		case m.Skipped != "":
-			st = "not run"
 		}
 		fmt.Fprintf(out, "%-28s %14s %14s %16s %9.3f\n", m.Name, down(m.Result.Lower, 8), up(m.Result.Upper, 8), st, m.Result.Elapsed.Seconds())
 	}
+	// Notes: failures, then the bounds not run, grouped by reason.
 	var notes []string
+	var reasons []string
+	byReason := map[string][]string{}
 	for _, m := range rep.Members {
 		if m.Err != nil {
 			notes = append(notes, fmt.Sprintf("%s failed: %s", m.Name, oneLine(m.Err)))
 		}
 		if m.Skipped != "" {
-			notes = append(notes, fmt.Sprintf("%s: %s", m.Name, m.Skipped))
+			if byReason[m.Skipped] == nil {
+				reasons = append(reasons, m.Skipped)
+			}
+			byReason[m.Skipped] = append(byReason[m.Skipped], m.Name)
 		}
+	}
+	for _, r := range reasons {
+		notes = append(notes, fmt.Sprintf("not run (%s): %s", strings.TrimPrefix(r, "not started: "), strings.Join(byReason[r], ", ")))
 	}
 	if len(notes) > 0 {
 		fmt.Fprintf(out, "\n%s\n", strings.Join(notes, "\n"))
