@@ -84,7 +84,7 @@ func TestLadderUsesTheBudget(t *testing.T) {
 // Plan's ladder: level one by interior point up to m·n = 100 (the
 // first-order form after it, run only when it did not), the first-order
 // form alone above; level two only for real subspaces with
-// m·n(n+1)/2 ≤ 200; branch-and-bound on the ladder only when it is not
+// m·n(n+1)/2 ≤ 150; branch-and-bound on the ladder only when it is not
 // already running side by side (sphere dimension > 5).
 func TestPlanLadder(t *testing.T) {
 	names := func(in suite.Instance) []string {

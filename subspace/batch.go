@@ -139,13 +139,20 @@ func (w *Subspace) BatchBytes(count int) int64 {
 	return 8 * (k*s*p + k*p + s)
 }
 
+// pairMaxSide is the largest side for which the pair form is used: it
+// gives the operators as formed p×p matrices, whose products cost p² each,
+// which only pays for small sides (at 2×1000 with a few stored vectors the
+// formed 1000×1000 matrices made ALS 30× slower than the factors).
+const pairMaxSide = 32
+
 // pairSizes returns M = m(m+1)/2 and N = n(n+1)/2 and whether the batches
-// of w use the pair form (see pairForm): real, cheaper, and the form and
-// its two packed copies within a sixteenth of the memory limit.
+// of w use the pair form (see pairForm): real, both sides at most
+// pairMaxSide, cheaper, and the form and its two packed copies within a
+// sixteenth of the memory limit.
 func (w *Subspace) pairSizes() (M, N int, ok bool) {
 	m, n := int64(w.m), int64(w.n)
 	M64, N64 := m*(m+1)/2, n*(n+1)/2
-	if w.cx != nil || w.s == 0 || 2*M64*N64 >= int64(w.s)*(m+n)*(m+n) || 3*8*M64*N64 > w.limit/16 {
+	if w.cx != nil || w.s == 0 || max(m, n) > pairMaxSide || 2*M64*N64 >= int64(w.s)*(m+n)*(m+n) || 3*8*M64*N64 > w.limit/16 {
 		return 0, 0, false
 	}
 	return int(M64), int(N64), true

@@ -167,7 +167,7 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 	// the readers use (complexWorkBytes), so that both refuse the same
 	// shapes.
 	need := complexWorkBytes(int64(cb.Count), int64(cb.Rows), int64(cb.Cols))
-	if opt.MaxBytes >= 0 && (need > limit || need < 0) {
+	if opt.MaxBytes >= 0 && tooLarge(need, limit) {
 		return nil, fmt.Errorf("%w: %d complex matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, cb.Count, cb.Rows, cb.Cols, need, limit)
 	}
 	ropt := opt

@@ -210,16 +210,16 @@ func checkShapeField(r, m, n int64, maxBytes int64, complex bool) (int, error) {
 	if r > lim || m > lim || n > lim || m*n > lim || r > lim/(m*n) {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
 	}
-	data := 8 * r * m * n
-	need := data + workBytes(int(r), int(m*n))
+	data := mulSat(8, mulSat(r, mulSat(m, n)))
+	need := sumSat(data, workBytes(int(r), int(m*n)))
 	if complex {
 		if r > lim/(4*m*n) {
 			return 0, fmt.Errorf("%w: shape (%d, %d, %d) needs more than the %d-byte limit", ErrTooLarge, r, m, n, limit)
 		}
-		data = 16 * r * m * n
+		data = mulSat(16, mulSat(r, mulSat(m, n)))
 		need = complexWorkBytes(r, m, n)
 	}
-	if need > limit || need < 0 {
+	if tooLarge(need, limit) {
 		return 0, fmt.Errorf("%w: shape (%d, %d, %d): reading (%d bytes) and orthonormalising need about %d bytes, limit %d",
 			ErrTooLarge, r, m, n, data, need, limit)
 	}

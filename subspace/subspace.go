@@ -206,7 +206,7 @@ func validate(b Basis, opt Options) (tol float64, limit int64, err error) {
 	if len(b.Data) != total {
 		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d need %d entries, have %d", ErrShape, r, m, n, total, len(b.Data))
 	}
-	if need := workBytes(r, L); need > limit || need < 0 {
+	if need := workBytes(r, L); tooLarge(need, limit) {
 		return 0, 0, fmt.Errorf("%w: %d matrices of %d×%d need about %d bytes of working storage, limit %d", ErrTooLarge, r, m, n, need, limit)
 	}
 	for idx, v := range b.Data {
@@ -401,16 +401,49 @@ func workBytes(r, L int) int64 {
 	r64, L64 := int64(r), int64(L)
 	s := min(k, L64-k)
 	nb, p, c := int64(qrNB), int64(qrNB+qrOver), int64(reconChunk(r))
-	b := r64*L64 + k*(k+1)/2 + c*k + k*nb + 3*r64 + 2*k
-	b += 6*nb*r64 + 2*nb*nb + nb*formCols
+	// Saturating arithmetic: a shape whose estimate would overflow int64
+	// gets math.MaxInt64, which every limit refuses (tooLarge).
+	b := sumSat(mulSat(r64, L64), mulSat(k, k+1)/2, mulSat(c, k), mulSat(k, nb), mulSat(3, r64), mulSat(2, k))
+	b = sumSat(b, mulSat(6*nb, r64), 2*nb*nb, nb*formCols)
 	if r > qrPanelMax && min(r, L) > qrNB {
-		b += r64*p + p*sketchCols + 2*nb*p + 6*r64 + 2*nb
+		b = sumSat(b, mulSat(r64, p), p*sketchCols, 2*nb*p, mulSat(6, r64), 2*nb)
 	}
-	b += c*L64 + s*min(s, gramPanel)
+	b = sumSat(b, mulSat(c, L64), mulSat(s, min(s, gramPanel)))
 	if L64-k < k {
-		b += (L64 - k) * L64
+		b = sumSat(b, mulSat(L64-k, L64))
 	}
-	return 8*b + gemmBytes(max(r, L))
+	return sumSat(mulSat(8, b), gemmBytes(max(r, L)))
+}
+
+// mulSat returns a·b for a, b ≥ 0, or math.MaxInt64 when it overflows.
+func mulSat(a, b int64) int64 {
+	if a == 0 || b == 0 {
+		return 0
+	}
+	if a > math.MaxInt64/b {
+		return math.MaxInt64
+	}
+	return a * b
+}
+
+// sumSat returns the sum of nonnegative terms, or math.MaxInt64 when it
+// overflows.
+func sumSat(terms ...int64) int64 {
+	var t int64
+	for _, v := range terms {
+		if t > math.MaxInt64-v {
+			return math.MaxInt64
+		}
+		t += v
+	}
+	return t
+}
+
+// tooLarge reports whether an estimate need refuses a shape under limit:
+// above it, negative, or saturated (the estimate overflowed; refused even
+// when the limit is math.MaxInt64).
+func tooLarge(need, limit int64) bool {
+	return need > limit || need < 0 || need == math.MaxInt64
 }
 
 // complexWorkBytes estimates the bytes NewComplex needs for r complex
@@ -420,9 +453,14 @@ func workBytes(r, L int) int64 {
 // of 4mn entries) and the panels of its Gram matrix (k₂·min(k₂, gramPanel)
 // words). The caller has checked that 16·r·m·n and 4·m·n·r do not overflow.
 func complexWorkBytes(r, m, n int64) int64 {
-	data := 16 * r * m * n
-	k2 := min(2*r, 2*m*n)
-	return data + 2*data + workBytes(int(2*r), int(2*m*n)) + 8*k2*4*m*n + 8*k2*min(k2, gramPanel)
+	mn := mulSat(m, n)
+	data := mulSat(16, mulSat(r, mn))
+	r2, mn2 := mulSat(2, r), mulSat(2, mn)
+	if r2 == math.MaxInt64 || mn2 == math.MaxInt64 {
+		return math.MaxInt64
+	}
+	k2 := min(r2, mn2)
+	return sumSat(data, mulSat(2, data), workBytes(int(r2), int(mn2)), mulSat(8*k2, mulSat(4, mn)), mulSat(8*k2, min(k2, gramPanel)))
 }
 
 func mulOK(a, b int) (int, bool) {

@@ -7,7 +7,7 @@ import (
 )
 
 // rowCholesky is the row-by-row (left-looking) form of shiftedCholesky, the
-// form the package used before: the reference that the right-looking form
+// form the package used before: the reference that the two-rows-at-a-time form
 // must reproduce bit for bit (see shiftedCholesky).
 func rowCholesky(a, l []float64, n int, s float64) (float64, bool) {
 	var maxDiag float64
@@ -46,7 +46,7 @@ func rowCholesky(a, l []float64, n int, s float64) (float64, bool) {
 	return choleskyBound(n, s, frob, maxDiag, maxL)
 }
 
-// TestCholeskyFormsAgree checks that the right-looking factorisation gives
+// TestCholeskyFormsAgree checks that the two-rows-at-a-time factorisation gives
 // the row-by-row form's bound bit for bit, and fails exactly when it fails,
 // on random symmetric matrices of orders 1 to 40 with shifts on both sides
 // of λmin (so both outcomes occur), including entries of mixed magnitude and
@@ -77,7 +77,7 @@ func TestCholeskyFormsAgree(t *testing.T) {
 		b1, ok1 := rowCholesky(a, l1, n, s)
 		b2, ok2 := shiftedCholesky(a, l2, n, s, nil)
 		if ok1 != ok2 || math.Float64bits(b1) != math.Float64bits(b2) {
-			t.Fatalf("trial %d (n = %d, s = %g): row form (%v, %v), right-looking (%v, %v)", trial, n, s, b1, ok1, b2, ok2)
+			t.Fatalf("trial %d (n = %d, s = %g): row form (%v, %v), two rows at a time (%v, %v)", trial, n, s, b1, ok1, b2, ok2)
 		}
 		if ok1 {
 			ok++

@@ -142,7 +142,9 @@ func minEigLowerFrom(full []float64, n int, guess float64, stop func() bool, wor
 	return best
 }
 
-// cholPair computes rows i and i+1 of L̃ (rows < i done) in place in l and
+// cholPair computes rows i and i+1 of L̃ (rows < i done; i even, as
+// shiftedCholesky takes the rows in pairs from 0, so the columns j < i
+// come in pairs too) in place in l and
 // returns their pivots before the square root, or ok = false if either
 // pivot is not a positive finite number (row i's is tested first). The
 // operations on each entry are the one-at-a-time form's (shiftedCholesky).
@@ -169,17 +171,6 @@ func cholPair(l []float64, n, i int) (d0, d1 float64, ok bool) {
 		v01 /= lj1
 		v11 /= lj1
 		ri[j], ri[j+1], ri1[j], ri1[j+1] = v00, v01, v10, v11
-	}
-	if j < i { // one column left, j = i − 1
-		rj := l[j*n : j*n+j]
-		v0, v1 := ri[j], ri1[j]
-		a0, a1 := ri[:j], ri1[:j]
-		for k, b := range rj {
-			v0 -= float64(a0[k] * b)
-			v1 -= float64(a1[k] * b)
-		}
-		ljj := l[j*n+j]
-		ri[j], ri1[j] = v0/ljj, v1/ljj
 	}
 	// Row i's pivot, entry (i+1, i), and row i+1's pivot up to its term k = i.
 	d0, v, d1 := ri[i], ri1[i], ri1[i+1]
