@@ -320,7 +320,11 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 			i := len(conc) + j
 			skip := ""
 			left := time.Until(deadline)
+			if st.skipIf != nil {
+				skip = st.skipIf(left, ran) // not needed: says so even when time is short
+			}
 			switch {
+			case skip != "":
 			case m.isMet():
 				skip = "not started: the interval had met the gap"
 			case sctx.Err() != nil:
@@ -329,15 +333,15 @@ func Certify(ctx context.Context, w *subspace.Subspace, opt Options) (Report, er
 			case st.predict > left:
 				skip = fmt.Sprintf("not started: predicted %s, %s left", roundDuration(st.predict), roundDuration(left))
 				budgetSkipped = true
-			case st.skipIf != nil:
-				skip = st.skipIf(left, ran)
 			}
 			if skip != "" {
 				outs[i] = Member{Name: rankone.NameOf(st.s), Result: rankone.TrivialResult(w, rankone.NameOf(st.s)), Skipped: skip}
 				continue
 			}
 			run(i, st.s)
-			ran[rankone.NameOf(st.s)] = true
+			if outs[i].Err == nil {
+				ran[rankone.NameOf(st.s)] = true // a refusal leaves the next form its turn
+			}
 		}
 	}()
 	wg.Wait()
