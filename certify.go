@@ -43,15 +43,6 @@ const maxLadderBranchBoundSide = 12
 // the first-order form takes its place.
 const maxSOSSize = 100
 
-// maxFirstOrderSize is the largest m·n for which the first-order level-one
-// route (sos.FirstOrder) joins when the interior-point one does not fit
-// (m·n > 64): one dense eigendecomposition of order m·n per iteration,
-// measured about 40 ms at m·n = 256 and 6 s at m·n = 1024 on this
-// project's machine (sos.BenchmarkFirstOrder: the 16×16 structured
-// instances close in 0.3 s, the 32×32 ones in about 35 s, so at 32×32 a
-// budget of a minute is needed).
-const maxFirstOrderSize = 1024
-
 // maxLevelTwoOrder is the largest order m·n(n+1)/2 of the interior-point
 // level two on the ladder (6×6 is order 126, measured 4.1 s; 4×8 is 144);
 // the cost model decides whether it fits in the time left. Level two is on
@@ -59,11 +50,6 @@ const maxFirstOrderSize = 1024
 // (PPT-invariant projectors such as the UPB complements, where level one
 // proves nothing).
 const maxLevelTwoOrder = 150
-
-// maxLevelTwoFirstOrder is the largest order of the first-order level two
-// on the ladder (sos.LevelTwoFirstOrder's own limit), which takes the
-// interior-point one's place when that is too large or does not fit.
-const maxLevelTwoFirstOrder = 1500
 
 // maxComplexSOSSize is the largest m·n of a complex subspace for which the
 // level-one (PPT) relaxation joins: (mn)² + 1 constraints, measured at
@@ -144,14 +130,14 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 				}
 				return ""
 			}})
-	case L <= maxFirstOrderSize:
+	case L <= sos.MaxFirstOrderSize: // the first-order form's own limit
 		lad = append(lad, rung{s: &sos.FirstOrder{}, predict: predictFirstOrderStep(w)})
 	}
 	if real {
 		two := predictLevelTwo(w)
 		fits2 := m*n*(n+1)/2 <= maxLevelTwoOrder
 		l2 := &sos.LevelTwo{}
-		if _, ok := twoCopyOrder(w); ok {
+		if _, ok := sos.EigenBoundOrder(w); ok {
 			lad = append(lad, rung{s: &sos.TwoCopy{}, predict: predictTwoCopy(w), skipIf: func(left time.Duration, _ map[string]bool) string {
 				if fits2 && two <= left {
 					return "level two, stronger, fits in the time left"
@@ -162,7 +148,7 @@ func planned(w *subspace.Subspace, opt Options) (conc []rankone.Searcher, lad []
 		if fits2 {
 			lad = append(lad, rung{s: l2, predict: two})
 		}
-		if order := m * n * (n + 1) / 2; order <= maxLevelTwoFirstOrder {
+		if order := m * n * (n + 1) / 2; order <= sos.MaxLevelTwoFirstOrder {
 			lad = append(lad, rung{s: &sos.LevelTwoFirstOrder{}, predict: predictLevelTwoStep(w), skipIf: func(_ time.Duration, ran map[string]bool) string {
 				if ran[l2.Name()] {
 					return "not needed: the interior-point level two ran"

@@ -4,6 +4,7 @@ import (
 	"math"
 	"time"
 
+	"github.com/segre-lab/segre/sos"
 	"github.com/segre-lab/segre/subspace"
 )
 
@@ -44,7 +45,7 @@ var (
 	// N = m·n(n+1)/2.
 	costLevelTwoStep = powerLaw{1.4e-8, 2.46}
 	// costTwoCopy: the two-copy eigenvalue bound, N = the order of its
-	// matrix (twoCopyOrder).
+	// matrix (sos.EigenBoundOrder).
 	costTwoCopy = powerLaw{7.3e-11, 3.1}
 )
 
@@ -83,21 +84,8 @@ func predictLevelTwoStep(w *subspace.Subspace) time.Duration {
 	return costLevelTwoStep.at(m * n * (n + 1) / 2)
 }
 
-// twoCopyOrder is the order of the matrix sos.EigenBound works on: k·n
-// (k stored vectors) when W is stored and k·n ≤ 4096, else m·n(n+1)/2,
-// which it accepts up to 2500; ok is false beyond.
-func twoCopyOrder(w *subspace.Subspace) (order int, ok bool) {
-	st := w.Stored()
-	m, n := w.Rows(), w.Cols()
-	if !st.Complement() && st.Count()*n <= 4096 {
-		return st.Count() * n, true
-	}
-	order = m * n * (n + 1) / 2
-	return order, order <= 2500
-}
-
 func predictTwoCopy(w *subspace.Subspace) time.Duration {
-	order, _ := twoCopyOrder(w)
+	order, _ := sos.EigenBoundOrder(w)
 	return costTwoCopy.at(order)
 }
 

@@ -65,11 +65,11 @@ type FirstOrder struct {
 
 var _ rankone.Searcher = (*FirstOrder)(nil)
 
-// maxFirstOrderSize is the largest m·n FirstOrder accepts: a
+// MaxFirstOrderSize is the largest m·n FirstOrder accepts: a
 // tridiagonal reduction of order m·n per iteration (a third of a second at
 // 1024 on the project's machine), memory about 30 matrices of that order
 // (Anderson's history included; 600 MB at 1024).
-const maxFirstOrderSize = 1024
+const MaxFirstOrderSize = 1024
 
 // Name returns "sos level 1 (first-order)".
 func (f *FirstOrder) Name() string { return "sos level 1 (first-order)" }
@@ -87,8 +87,8 @@ func (f *FirstOrder) Search(ctx context.Context, w *subspace.Subspace) (rankone.
 	}
 	m, n := w.Rows(), w.Cols()
 	L := m * n
-	if L > maxFirstOrderSize {
-		return res, fmt.Errorf("%w: m·n = %d (the first-order level one handles m·n ≤ %d)", ErrTooLarge, L, maxFirstOrderSize)
+	if L > MaxFirstOrderSize {
+		return res, fmt.Errorf("%w: m·n = %d (the first-order level one handles m·n ≤ %d)", ErrTooLarge, L, MaxFirstOrderSize)
 	}
 	p, _ := ProjectorBound(w)
 	cn, rows := levelOneConic(p, m, n)
@@ -138,14 +138,7 @@ func roundTop(rho []float64, m, n int) ([]float64, []float64, bool) {
 	if _, calls := eigen.Top(eigen.SymApply(mat.NewSymDense(L, rho)), top, 0, 0, 1e-10); calls == 0 {
 		return nil, nil, false
 	}
-	var svd mat.SVD
-	if !svd.Factorize(mat.NewDense(m, n, top), mat.SVDThin) {
-		return nil, nil, false
-	}
-	var u, v mat.Dense
-	svd.UTo(&u)
-	svd.VTo(&v)
-	return mat.Col(nil, 0, &u), mat.Col(nil, 0, &v), true
+	return topSingularPair(top, m, n)
 }
 
 // conic is a relaxation in the form the boundary point method solves:

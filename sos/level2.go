@@ -359,6 +359,27 @@ func roundLevelTwo(ctx context.Context, w *subspace.Subspace, e *extension, rho 
 	keepBetter(ctx, w, res, x, y)
 }
 
+// The largest orders of EigenBound's two forms: the k·n Gram form
+// (subspace.ExtensionBound) and the dense matrix of order m·n(n+1)/2.
+const (
+	maxGramForm  = 4096
+	maxDenseForm = 2500
+)
+
+// EigenBoundOrder returns the order of the matrix EigenBound works on for
+// w: k·n (k stored vectors) when W is stored, k·n ≤ 4096 and that form
+// fits in w's memory limit, else m·n(n+1)/2; ok is false when that exceeds
+// 2500 (EigenBound then fails). It lets a caller predict the bound's cost.
+func EigenBoundOrder(w *subspace.Subspace) (order int, ok bool) {
+	st := w.Stored()
+	m, n := w.Rows(), w.Cols()
+	if kn := st.Count() * n; !st.Complement() && st.Count() > 0 && kn <= maxGramForm && rankone.TraceFits(w, kn) {
+		return kn, true
+	}
+	order = m * n * (n + 1) / 2
+	return order, order <= maxDenseForm
+}
+
 // EigenBound is the eigenvalue-only bound of the symmetric extension (no
 // SDP): with K = 0 in the level-two argument, h* ≤ min{t : tD − Ĉ ⪰ 0} + δ
 // + rounding, i.e. the largest generalised eigenvalue of (Ĉ, D), proven by
@@ -368,7 +389,8 @@ func roundLevelTwo(ctx context.Context, w *subspace.Subspace, e *extension, rho 
 // m·n(n+1)/2 ≤ 2500. If ctx is done first it returns 1 (the trivial bound)
 // and ctx.Err().
 func EigenBound(ctx context.Context, w *subspace.Subspace) (float64, error) {
-	if ub, ok := ExtensionBound(ctx, w, 4096); ok {
+	// The two forms and their limits are EigenBoundOrder's.
+	if ub, ok := ExtensionBound(ctx, w, maxGramForm); ok {
 		return math.Min(ub, 1), nil
 	}
 	if err := ctx.Err(); err != nil {
@@ -379,7 +401,7 @@ func EigenBound(ctx context.Context, w *subspace.Subspace) (float64, error) {
 
 // eigenBoundDense is EigenBound through the dense order-m·n(n+1)/2 matrix.
 func eigenBoundDense(ctx context.Context, w *subspace.Subspace) (float64, error) {
-	e, err := newExtension(w, 2500)
+	e, err := newExtension(w, maxDenseForm)
 	if err != nil {
 		return 1, err
 	}

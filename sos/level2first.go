@@ -52,10 +52,10 @@ type LevelTwoFirstOrder struct {
 
 var _ rankone.Searcher = (*LevelTwoFirstOrder)(nil)
 
-// maxLevelTwoFirstOrder is the largest order m·n(n+1)/2 LevelTwoFirstOrder
+// MaxLevelTwoFirstOrder is the largest order m·n(n+1)/2 LevelTwoFirstOrder
 // accepts (the extension's dense matrices take 16 bytes an entry, the
 // method about ten vectors of the blocks' sizes).
-const maxLevelTwoFirstOrder = 1500
+const MaxLevelTwoFirstOrder = 1500
 
 // Name returns "sos level 2 (first-order)".
 func (l *LevelTwoFirstOrder) Name() string { return "sos level 2 (first-order)" }
@@ -72,7 +72,7 @@ func (l *LevelTwoFirstOrder) Search(ctx context.Context, w *subspace.Subspace) (
 		return res, fmt.Errorf("%w: level two is real only", ErrTooLarge)
 	}
 	m, n := w.Rows(), w.Cols()
-	e, err := newExtension(w, maxLevelTwoFirstOrder)
+	e, err := newExtension(w, MaxLevelTwoFirstOrder)
 	if err != nil {
 		return res, err
 	}

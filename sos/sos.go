@@ -354,8 +354,13 @@ func round(x *mat.SymDense, m, n int) ([]float64, []float64, bool) {
 	if !ok {
 		return nil, nil, false
 	}
-	L := m * n
-	top := mat.Col(nil, L-1, vecs)
+	return topSingularPair(mat.Col(nil, m*n-1, vecs), m, n)
+}
+
+// topSingularPair returns the top singular vectors of the m×n matrix whose
+// row-major entries are top (the moment matrix's top eigenvector read as a
+// matrix: the rank-one point the relaxation suggests).
+func topSingularPair(top []float64, m, n int) ([]float64, []float64, bool) {
 	var svd mat.SVD
 	if !svd.Factorize(mat.NewDense(m, n, top), mat.SVDThin) {
 		return nil, nil, false

@@ -38,3 +38,26 @@ func TestTwoCopySearcher(t *testing.T) {
 func TestTwoCopyConformance(t *testing.T) {
 	searchtest.Run(t, func() rankone.Searcher { return &TwoCopy{} }, searchtest.Options{})
 }
+
+// EigenBoundOrder names the form EigenBound uses (derived from its two
+// forms): k·n for a stored W (a Gaussian 4×4 subspace of dimension 8 is
+// stored as W: 8·4 = 32), m·n(n+1)/2 for a stored complement (dimension
+// 12 of 16 is stored as its complement of dimension 4: 4·4·5/2 = 40), and
+// not ok beyond 2500 (a Gaussian 12×24 subspace of dimension 280 stored as
+// its complement: 12·24·25/2 = 3600).
+func TestEigenBoundOrder(t *testing.T) {
+	for _, c := range []struct {
+		in    suite.Instance
+		order int
+		ok    bool
+	}{
+		{suite.Random(4, 4, 8, 1), 32, true},
+		{suite.Random(4, 4, 12, 1), 40, true},
+		{suite.Random(12, 24, 280, 1), 3600, false},
+	} {
+		w := mustNew(t, c.in)
+		if got, ok := EigenBoundOrder(w); got != c.order || ok != c.ok {
+			t.Errorf("%s (stored %d, complement %v): order %d, %v; want %d, %v", c.in.Name, w.Stored().Count(), w.Stored().Complement(), got, ok, c.order, c.ok)
+		}
+	}
+}
