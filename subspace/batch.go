@@ -17,9 +17,13 @@ import "math"
 //	H side: Z_b[t, j] = Σ_i x_b[i]·S_t[i, j], so row b of V·R (R the
 //	        m×(n·s) matrix whose column (j, t) is column j of S_t) is Z_bᵀ.
 //
-// R is never formed: its strips are packed straight from the stored
-// layout (once, when they fit; see packedBasis). Each point's factor is
-// kept transposed, p×s, so that applying it runs along rows of length s.
+// For a real subspace R is never formed nor copied: the G side runs the
+// product the other way round, the basis's rows read where they are
+// (realG), the H side packs R's strips as it goes from runs of the stored
+// rows (realH), and the results are moved to their places in the points'
+// factors. (The pair form and a complex subspace pack their right factor
+// once, when it fits; see packedBasis.) Each point's factor is kept
+// transposed, p×s, so that applying it runs along rows of length s.
 //
 // What a point's numbers depend on. Entry (b, c) of such a product is, for
 // each slice of the inner dimension in order, the sum of v_bl·p_lc over the
@@ -121,9 +125,10 @@ func (ob *OperatorBatch) Shift(b int) float64 { return ob.shift[b] }
 
 // BatchBytes returns the bytes an OperatorBatch of count points of w holds
 // (its factors or formed matrices and work space, the larger side), so
-// that callers can size their batches under w.MemoryLimit(). Besides, the
-// batch keeps each side's basis packed when that takes at most a
-// sixteenth of the limit (see packedBasis).
+// that callers can size their batches under w.MemoryLimit(). Besides, a
+// batch of the pair form or of a complex subspace keeps each side's right
+// factor packed when that takes at most a sixteenth of the limit (see
+// packedBasis); a real subspace's factors keep no copy of the basis.
 func (w *Subspace) BatchBytes(count int) int64 {
 	k := int64(count)
 	if w.cx != nil {
@@ -136,7 +141,14 @@ func (w *Subspace) BatchBytes(count int) int64 {
 	if M, N, ok := w.pairSizes(); ok {
 		return 8 * (3*int64(M)*int64(N) + k*int64(max(M, N)) + k*p)
 	}
-	return 8 * (k*s*p + k*p + s)
+	// The factors, the stacked points, and realG's and realH's work:
+	// realG the points packed (np ≤ count+23 columns) and a tileM×np
+	// block; realH a result block and a packed strip block, each at most
+	// hBlockEntries or one matrix wide (n+23 columns).
+	m, n, np := int64(w.m), int64(w.n), k+23
+	g := np*p + tileM*np
+	h := 2*hBlockEntries + (n+23)*(min(k, tileM)+min(tileK, m))
+	return 8 * (k*s*p + k*p + s + max(g, h))
 }
 
 // pairMaxSide is the largest side for which the pair form is used: it
@@ -176,19 +188,12 @@ func (w *Subspace) SearchGBatch(ob *OperatorBatch, ys [][]float64) {
 		w.complexGBatch(ob, ys)
 		return
 	}
-	B, m, n := len(ys), w.m, w.n
+	m, n := w.m, w.n
 	if M, N, ok := w.pairSizes(); ok {
 		ob.pairBatch(w, sideG, ys, m, M, N)
 		return
 	}
-	ob.reset(B, w.s, m, w.comp)
-	ob.stack(ys, n)
-	if w.s > 0 && B > 0 {
-		q, ns := w.q, w.s
-		ob.product(w, sideG, false, B, w.s*m, n, ob.z, w.s*m, func(dst []float64, j0, nt, p0, kc, nr int) {
-			packRows(dst, q, m, n, ns, j0, nt, p0, kc, nr)
-		}, stored{src: q, byRows: true, perm: m, s: ns})
-	}
+	ob.realSide(w, ys, m, n, stored{src: w.q, byRows: true, perm: m, s: w.s}, ob.realG)
 }
 
 // SearchHBatch sets ob to the search operators H(x_b) (order n) of the
@@ -204,18 +209,29 @@ func (w *Subspace) SearchHBatch(ob *OperatorBatch, xs [][]float64) {
 		w.complexHBatch(ob, xs)
 		return
 	}
-	B, m, n := len(xs), w.m, w.n
+	m, n := w.m, w.n
 	if M, N, ok := w.pairSizes(); ok {
 		ob.pairBatch(w, sideH, xs, n, N, M)
 		return
 	}
-	ob.reset(B, w.s, n, w.comp)
-	ob.stack(xs, m)
-	if w.s > 0 && B > 0 {
-		q, ns := w.q, w.s
-		ob.product(w, sideH, false, B, w.s*n, m, ob.z, w.s*n, func(dst []float64, j0, nt, p0, kc, nr int) {
-			packColumns(dst, q, m, n, ns, j0, nt, p0, kc, nr)
-		}, stored{src: q, C: n, perm: n, s: ns})
+	ob.realSide(w, xs, n, m, stored{src: w.q, C: n, perm: n, s: w.s}, ob.realH)
+}
+
+// realSide sets ob to the operators (order p) of the points pts (each of
+// length K) of a real subspace's side whose stored layout is st: by the
+// one-point path (productFew) for fewer than four points, else by tiles
+// (realG or realH).
+func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, p, K int, st stored, tiles func(*Subspace, int)) {
+	B := len(pts)
+	ob.reset(B, w.s, p, w.comp)
+	ob.stack(pts, K)
+	switch {
+	case w.s == 0 || B == 0:
+	case B < 4:
+		ob.tmp = grow(&ob.tmp, w.s*p)
+		productFew(B, w.s*p, K, ob.v, st, ob.tmp, ob.z, w.s*p)
+	default:
+		tiles(w, B)
 	}
 }
 
@@ -352,6 +368,152 @@ func (ob *OperatorBatch) product(w *Subspace, side int, pair bool, rows, N, K in
 	}
 	ob.mulInto(rows, N, K, a, pack, packed, c, ldc)
 }
+
+// realG sets the factors of ob (B ≥ 4 points stacked in ob.v, B×n) for
+// the G side of a real subspace without copying the basis. For each row
+// index i, the s×n matrix Q_i whose row t is row i of S_t (read where it
+// is stored: rows m·n apart) gives D_i = Q_i·Vᵀ with D_i[t, b] =
+// Σ_j S_t[i, j]·y_b[j] = entry (i, t) of Z_bᵀ. The tiles read Q_i's rows
+// in place (the direct tiles; the portable tile packs four rows at a
+// time) and Vᵀ packed (small: the points), in row blocks of tileM and
+// inner slices of tileK, into a tileM×np block whose columns are then
+// runs of consecutive entries of the points' factors. Each entry of D_i
+// is the sum gemm.go describes, with the factors of each product in the
+// other order: the same bits as V·Q_iᵀ (a·b = b·a, and a fused
+// multiply-add is the same for either order of its factors), so the same
+// as the one-point path's and any batch's.
+func (ob *OperatorBatch) realG(w *Subspace, B int) {
+	q, s, m, n := w.q, w.s, w.m, w.n
+	nr := stripN()
+	np := (B + nr - 1) / nr * nr
+	kc0 := min(tileK, n)
+	ob.ensure((min(s, tileM)+3)/4*4*kc0, np*kc0)
+	ob.tmp = grow(&ob.tmp, min(s, tileM)*np)
+	ob.raw = grow(&ob.raw, n*np)
+	buf, d, vt := &ob.buf, ob.tmp, ob.raw
+	for p0 := 0; p0 < n; p0 += tileK {
+		kc := min(tileK, n-p0)
+		packB(vt[p0*np:(p0+kc)*np], operand{ob.v, n, true}, 0, B, p0, kc, nr)
+	}
+	for i := 0; i < m; i++ {
+		a := operand{q[i*n:], m * n, false}
+		direct := readsInPlace(a, false)
+		for t0 := 0; t0 < s; t0 += tileM {
+			mt := min(tileM, s-t0)
+			clear(d[:mt*np])
+			for p0 := 0; p0 < n; p0 += tileK {
+				kc := min(tileK, n-p0)
+				if !direct {
+					packA(buf.pa[:(mt+3)/4*4*kc], a, t0, mt, p0, kc, false)
+				}
+				panel := packBuf{pa: buf.pa, pb: vt[p0*np : (p0+kc)*np], scratch: buf.scratch}
+				block(mt, np, kc, a, t0, p0, direct, false, &panel, d, np, true)
+			}
+			transposeInto(ob.z[i*s+t0:], s*m, d, np, mt, B)
+		}
+	}
+}
+
+// realH sets the factors of ob (B ≥ 4 points stacked in ob.v, B×m) for
+// the H side of a real subspace without keeping a copy of the basis:
+// E = V·[S_0 | S_1 | … ] (the stored matrices side by side, m×(s·n)) has
+// E[b, t·n + j] = Σ_i x_b[i]·S_t[i, j] = entry (j, t) of Z_bᵀ. Its right
+// factor's strips are packed as the product runs (runs of consecutive
+// entries of the stored rows: a copy that streams through the cache), in
+// column blocks of T whole matrices (T ≤ 8, so that a block's results
+// are runs of T consecutive entries of a factor), inner slices of tileK
+// and row blocks of tileM. Each entry is the sum gemm.go describes, the
+// same as the one-point path's.
+func (ob *OperatorBatch) realH(w *Subspace, B int) {
+	q, s, m, n := w.q, w.s, w.m, w.n
+	nr := stripN()
+	kc0, mt0 := min(tileK, m), min(B, tileM)
+	T := max(1, min(8, s, hBlockEntries/(n*kc0), hBlockEntries/(n*mt0)))
+	width := (T*n + nr - 1) / nr * nr
+	ob.ensure((mt0+3)/4*4*kc0, width*kc0)
+	ob.tmp = grow(&ob.tmp, mt0*width)
+	buf, e := &ob.buf, ob.tmp
+	a := operand{ob.v, m, false}
+	direct := readsInPlace(a, false)
+	for i0 := 0; i0 < B; i0 += tileM {
+		mt := min(tileM, B-i0)
+		for t0 := 0; t0 < s; t0 += T {
+			tb := min(T, s-t0)
+			nt := tb * n
+			np := (nt + nr - 1) / nr * nr
+			clear(e[:mt*np])
+			for p0 := 0; p0 < m; p0 += tileK {
+				kc := min(tileK, m-p0)
+				packStrips(buf.pb[:np*kc], q, m, n, t0*n, nt, p0, kc, nr)
+				if !direct {
+					packA(buf.pa[:(mt+3)/4*4*kc], a, i0, mt, p0, kc, false)
+				}
+				block(mt, np, kc, a, i0, p0, direct, false, buf, e, np, true)
+			}
+			for r := 0; r < mt; r++ {
+				// Row r holds tb×n (matrix t0+tt, column j); its factor
+				// wants entry (j, t0+tt) at j·s + t0 + tt.
+				transposeInto(ob.z[(i0+r)*s*n+t0:], s, e[r*np:r*np+nt], n, tb, n)
+			}
+		}
+	}
+}
+
+// packStrips is packSideBySide for realH: a strip within one matrix (the
+// common case) is copied a whole row of the strip at a time.
+func packStrips(dst, q []float64, R, C, j0, nt, p0, kc, nr int) {
+	for st := 0; st < nt; st += nr {
+		c := j0 + st
+		t, j := c/C, c%C
+		if st+nr > nt || j+nr > C || (nr != 12 && nr != 24) {
+			packSideBySide(dst[st*kc:(st+nr)*kc], q, R, C, c, min(nr, nt-st), p0, kc, nr)
+			continue
+		}
+		strip := dst[st*kc : (st+nr)*kc]
+		at := t*R*C + p0*C + j
+		if nr == 24 {
+			for l := 0; l < kc; l++ {
+				*(*[24]float64)(strip[24*l:]) = *(*[24]float64)(q[at+l*C:])
+			}
+			continue
+		}
+		for l := 0; l < kc; l++ {
+			*(*[12]float64)(strip[12*l:]) = *(*[12]float64)(q[at+l*C:])
+		}
+	}
+}
+
+// transposeInto writes the rows×cols block src (row stride lds) transposed
+// into dst: src[r·lds + c] goes to dst[c·ldd + r]. It moves eight rows at
+// a time, so that each write fills a run of eight consecutive entries
+// (whole cache lines, where a row at a time would write cols scattered
+// entries, often in the same cache set when ldd is a power of two).
+func transposeInto(dst []float64, ldd int, src []float64, lds, rows, cols int) {
+	r := 0
+	for ; r+8 <= rows; r += 8 {
+		s0, s1 := src[r*lds:r*lds+cols], src[(r+1)*lds:(r+1)*lds+cols]
+		s2, s3 := src[(r+2)*lds:(r+2)*lds+cols], src[(r+3)*lds:(r+3)*lds+cols]
+		s4, s5 := src[(r+4)*lds:(r+4)*lds+cols], src[(r+5)*lds:(r+5)*lds+cols]
+		s6, s7 := src[(r+6)*lds:(r+6)*lds+cols], src[(r+7)*lds:(r+7)*lds+cols]
+		_, _, _, _, _, _, _ = s1[cols-1], s2[cols-1], s3[cols-1], s4[cols-1], s5[cols-1], s6[cols-1], s7[cols-1]
+		_ = dst[(cols-1)*ldd+r+7]
+		for c := range s0 {
+			d := dst[c*ldd+r : c*ldd+r+8 : c*ldd+r+8]
+			d[0], d[1], d[2], d[3] = s0[c], s1[c], s2[c], s3[c]
+			d[4], d[5], d[6], d[7] = s4[c], s5[c], s6[c], s7[c]
+		}
+	}
+	for ; r < rows; r++ {
+		for c, x := range src[r*lds : r*lds+cols] {
+			dst[c*ldd+r] = x
+		}
+	}
+}
+
+// hBlockEntries bounds the packed right factor (width·kc) and the result
+// block (rows·width) of realH's column blocks: 512 KiB each, so that they
+// stay in the second-level cache.
+const hBlockEntries = 1 << 16
 
 // fewUses is how many products of fewer than four rows a side makes by
 // the one-point path before it packs its right factor (packedBasis) and
@@ -592,50 +754,6 @@ func packSideBySide(dst, q []float64, R, C, j0, nt, p0, kc, nr int) {
 				copy(out[done:done+run], q[at:at+run])
 				done += run
 				col += run
-			}
-		}
-	}
-}
-
-// packRows packs, as packB does, columns [j0, j0+nt) and rows
-// [p0, p0+kc) of the K×(m·s) matrix R whose column (i, t) (index i·s + t)
-// is row i of S_t, for the s stored m×K matrices in q: the G side's right
-// factor, whose product with the points is Z_bᵀ.
-func packRows(dst, q []float64, m, K, s, j0, nt, p0, kc, nr int) {
-	for st := 0; st < nt; st += nr {
-		strip := dst[st*kc : (st+nr)*kc]
-		cols := min(nr, nt-st)
-		if cols < nr {
-			clear(strip)
-		}
-		for r := 0; r < cols; r++ {
-			c := j0 + st + r
-			i, t := c/s, c%s
-			row := q[(t*m+i)*K+p0 : (t*m+i)*K+p0+kc]
-			for l, v := range row {
-				strip[nr*l+r] = v
-			}
-		}
-	}
-}
-
-// packColumns packs, as packB does, columns [j0, j0+nt) and rows
-// [p0, p0+kc) of the m×(n·s) matrix R whose column (j, t) (index j·s + t)
-// is column j of S_t, for the s stored m×n matrices in q: the H side's
-// right factor, whose product with the points is Z_bᵀ.
-func packColumns(dst, q []float64, m, n, s, j0, nt, p0, kc, nr int) {
-	for st := 0; st < nt; st += nr {
-		strip := dst[st*kc : (st+nr)*kc]
-		cols := min(nr, nt-st)
-		if cols < nr {
-			clear(strip)
-		}
-		for r := 0; r < cols; r++ {
-			c := j0 + st + r
-			j, t := c/s, c%s
-			at := t*m*n + p0*n + j
-			for l := 0; l < kc; l++ {
-				strip[nr*l+r] = q[at+l*n]
 			}
 		}
 	}
