@@ -65,6 +65,9 @@ type OperatorBatch struct {
 	buf         packBuf
 	basis       [2]packedBasis // the right factor packed for each side, when it fits
 	pair        pairForm       // the pair form, when in use
+	free        *Subspace      // the operators are held free of their factors (see freeSide)
+	gSide       bool           // … and are G(y_b)
+	k           int            // the length of a point, when free
 }
 
 // The sides a batch's product packs the basis for.
@@ -138,6 +141,11 @@ func (w *Subspace) BatchBytes(count int) int64 {
 		return 8 * (k*2*kc*p + 2*k*kc*p + 2*k*p + 2*kc)
 	}
 	s, p := int64(w.s), int64(max(w.m, w.n))
+	if w.freeSide(w.n, w.m) || w.freeSide(w.m, w.n) {
+		// One side free (its points only), the other with factors of
+		// order at most freeMaxSide·… : bounded by the formed side.
+		p = int64(min(w.m, w.n))
+	}
 	if M, N, ok := w.pairSizes(); ok {
 		return 8 * (3*int64(M)*int64(N) + k*int64(max(M, N)) + k*p)
 	}
@@ -223,6 +231,16 @@ func (w *Subspace) SearchHBatch(ob *OperatorBatch, xs [][]float64) {
 // (realG or realH).
 func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, p, K int, st stored, tiles func(*Subspace, int)) {
 	B := len(pts)
+	if w.freeSide(p, K) {
+		// Free of their factors: the points alone, each Apply a pass
+		// over the basis (applyFree).
+		ob.count, ob.s, ob.p, ob.comp, ob.formed = B, w.s, p, w.comp, false
+		ob.shift = grow(&ob.shift, B)
+		ob.c = grow(&ob.c, p)
+		ob.stack(pts, K)
+		ob.free, ob.gSide, ob.k = w, p == w.m && K == w.n, K
+		return
+	}
 	ob.reset(B, w.s, p, w.comp)
 	ob.stack(pts, K)
 	switch {
@@ -320,7 +338,7 @@ func (w *Subspace) complexHBatch(ob *OperatorBatch, xs [][]float64) {
 
 // reset sizes ob for count operators of s factor rows and order p.
 func (ob *OperatorBatch) reset(count, s, p int, comp bool) {
-	ob.count, ob.s, ob.p, ob.comp, ob.formed = count, s, p, comp, false
+	ob.count, ob.s, ob.p, ob.comp, ob.formed, ob.free = count, s, p, comp, false, nil
 	ob.z = grow(&ob.z, count*s*p)
 	ob.shift = grow(&ob.shift, count)
 	ob.c = grow(&ob.c, s)
@@ -773,6 +791,18 @@ func (ob *OperatorBatch) Apply(b int, dst, src []float64) {
 		ob.applyFormed(b, dst, src)
 		return
 	}
+	if ob.free != nil {
+		if s > 0 {
+			applyFree(ob.free, ob.gSide, ob.v[b*ob.k:(b+1)*ob.k], p, ob.comp, ob.shift[b], dst, src)
+		} else if ob.comp {
+			for i := range dst {
+				dst[i] = ob.shift[b] * src[i]
+			}
+		} else {
+			clear(dst)
+		}
+		return
+	}
 	zt := ob.z[b*s*p : (b+1)*s*p] // Z_bᵀ, p×s
 	c := ob.c[:s]
 	// c = Z_b·src = Σ_i src_i·(row i of Z_bᵀ), then dst_i = (row i)·c.
@@ -808,6 +838,19 @@ func (ob *OperatorBatch) Matrix(b int, dst []float64) {
 		panic("subspace: OperatorBatch.Matrix: point out of range")
 	}
 	dst = dst[:p*p]
+	if ob.free != nil {
+		// Column j is A_b e_j; the upper triangle is mirrored.
+		e, col := make([]float64, p), make([]float64, p)
+		for j := 0; j < p; j++ {
+			e[j] = 1
+			ob.Apply(b, col, e)
+			e[j] = 0
+			for i := 0; i <= j; i++ {
+				dst[i*p+j], dst[j*p+i] = col[i], col[i]
+			}
+		}
+		return
+	}
 	if ob.formed {
 		u := ob.z[b*p*(p+1)/2 : (b+1)*p*(p+1)/2]
 		for i, at := 0, 0; i < p; i++ {

@@ -58,6 +58,10 @@ func (cx *complexPart) ops(w *Subspace) *complexOps {
 // It panics if len(y) ≠ Cols().
 func (w *Subspace) SearchGOperator(y []float64) *Operator {
 	if w.cx == nil {
+		if w.freeSide(w.m, w.n) {
+			w.checkY(y, "y")
+			return &Operator{s: w.s, p: w.m, comp: w.comp, shift: dot(y, y), free: w, v: append([]float64(nil), y...), gSide: true}
+		}
 		return w.GOperator(y)
 	}
 	w.checkY(y, "y")
@@ -89,6 +93,10 @@ func (w *Subspace) SearchGOperator(y []float64) *Operator {
 // len(x) ≠ Rows().
 func (w *Subspace) SearchHOperator(x []float64) *Operator {
 	if w.cx == nil {
+		if w.freeSide(w.n, w.m) {
+			w.checkX(x, "x")
+			return &Operator{s: w.s, p: w.n, comp: w.comp, shift: dot(x, x), free: w, v: append([]float64(nil), x...)}
+		}
 		return w.HOperator(x)
 	}
 	w.checkX(x, "x")

@@ -259,11 +259,19 @@ func (w *Subspace) H(dst *mat.SymDense, x []float64) {
 // stored basis, and each Apply costs O(s·p) for order p, far less than
 // forming the p×p matrix when p is large. It is immutable and safe for
 // concurrent use.
+//
+// A search operator (SearchGOperator, SearchHOperator) of a real subspace
+// whose other side is tiny may instead be held free of its factor (see
+// freeSide): then each Apply makes the factor's rows again, a chunk at a
+// time, in one pass over the basis, and gives the same bits.
 type Operator struct {
 	z     []float64 // s×p: row t is Q_t y (or Q_tᵀ x)
 	s, p  int
 	comp  bool
-	shift float64 // ‖y‖² (or ‖x‖²), used when the complement is stored
+	shift float64   // ‖y‖² (or ‖x‖²), used when the complement is stored
+	free  *Subspace // the free form's basis (z is then nil)
+	v     []float64 // the free form's point: y (order m) or x (order n)
+	gSide bool      // the free form is G(y)
 }
 
 // Order returns p, the order of the operator.
@@ -278,6 +286,10 @@ func (op *Operator) Order() int { return op.p }
 func (op *Operator) Apply(dst, src []float64) {
 	if len(dst) != op.p || len(src) != op.p {
 		panic("subspace: Operator.Apply needs vectors of length " + itoa(op.p))
+	}
+	if op.free != nil && op.s > 0 {
+		applyFree(op.free, op.gSide, op.v, op.p, op.comp, op.shift, dst, src)
+		return
 	}
 	if op.s == 0 {
 		if op.comp {
@@ -306,6 +318,73 @@ func (op *Operator) Apply(dst, src []float64) {
 	if h != nil {
 		putScratch(h)
 	}
+}
+
+// freeMaxSide and freeMinEntries decide when a search operator is held
+// free of its factor (freeSide): when the other side is at most
+// freeMaxSide (so that making the factor's rows again costs at most
+// freeMaxSide multiply-adds an entry, against the two of an Apply) and the
+// factor would hold at least freeMinEntries numbers (8 MiB; a variable so
+// that tests can lower it). With m = 2 and n = 4000, say, H(x)'s factor is
+// half the basis, and every search holding one (or each point of a
+// batch) would add that much memory.
+const freeMaxSide = 4
+
+var freeMinEntries = 1 << 20
+
+// freeSide reports whether the search operators of order p, whose factor
+// rows are sums over the other side of length other, are held free of
+// their factor: a real subspace only.
+func (w *Subspace) freeSide(p, other int) bool {
+	return w.cx == nil && other <= freeMaxSide && int64(w.s)*int64(p) >= int64(freeMinEntries)
+}
+
+// freeChunk is how many numbers of the factor a free Apply makes at a
+// time (rows of the factor, a multiple of eight of them).
+const freeChunk = 1 << 14
+
+// applyFree sets dst = A·src for the operator G(v) (len(v) = n, order
+// p = m) or H(v) (len(v) = m, order p = n) of w without its factor: the
+// factor's rows are made again, freeChunk numbers at a time, by the same
+// kernels as GOperator's and HOperator's (so the same bits), and the
+// chunk's c = Z·src and Zᵀc are taken as in Operator.Apply. axpyRows adds
+// in order of t and dotRows makes each entry alone, so the chunks give
+// dst exactly the factored Apply's numbers. dst and src may be the same.
+func applyFree(w *Subspace, gSide bool, v []float64, p int, comp bool, shift float64, dst, src []float64) {
+	L := w.m * w.n
+	T := max(8, freeChunk/max(p, 1)/8*8)
+	T = min(T, w.s)
+	h, buf := getScratch(T*p + T + p)
+	z, c, in := buf[:T*p], buf[T*p:T*p+T], buf[T*p+T:]
+	copy(in, src)
+	if comp {
+		for i := range dst {
+			dst[i] = shift * in[i]
+		}
+	} else {
+		clear(dst)
+	}
+	for t0 := 0; t0 < w.s; t0 += T {
+		nt := min(T, w.s-t0)
+		zc, cc := z[:nt*p], c[:nt]
+		if gSide { // G(y): rows Q_t y
+			dotRows(zc, w.q[t0*L:], w.n, v)
+		} else { // H(x): rows Q_tᵀ x
+			for t := 0; t < nt; t++ {
+				zt := zc[t*p : (t+1)*p]
+				clear(zt)
+				axpyRows(zt, v, w.q[(t0+t)*L:], w.n)
+			}
+		}
+		dotRows(cc, zc, p, in)
+		if comp {
+			for t := range cc {
+				cc[t] = -cc[t]
+			}
+		}
+		axpyRows(dst, cc, zc, p)
+	}
+	putScratch(h)
 }
 
 // GOperator returns G(y) (order m) in factored form: one dotRows over the
@@ -458,13 +537,18 @@ func (w *Subspace) ApplyPartialTrace1(dst, x []float64) {
 	w.checkX(x, "x")
 	w.checkX(dst, "dst")
 	L := w.m * w.n
-	z := make([]float64, w.s*w.n)
-	w.zx(z, x)
+	// One row of the factor Z = [Q_tᵀx]_t at a time (zx makes each row
+	// alone, so the numbers are those of the whole factor, without its
+	// s·n words).
+	h, z := getScratch(w.n)
 	clear(dst)
 	for t := 0; t < w.s; t++ {
+		clear(z)
+		axpyRows(z, x, w.q[t*L:], w.n)
 		g := blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.q[t*L : (t+1)*L]}
-		blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: z[t*w.n : (t+1)*w.n], Inc: 1}, 1, blas64.Vector{N: w.m, Data: dst, Inc: 1})
+		blas64.Gemv(blas.NoTrans, 1, g, blas64.Vector{N: w.n, Data: z, Inc: 1}, 1, blas64.Vector{N: w.m, Data: dst, Inc: 1})
 	}
+	putScratch(h)
 	if w.comp {
 		for i := range dst {
 			dst[i] = float64(w.n)*x[i] - dst[i]
@@ -480,10 +564,17 @@ func (w *Subspace) ApplyPartialTrace2(dst, y []float64) {
 	w.checkY(dst, "dst")
 	clear(dst)
 	if w.s > 0 {
-		z := make([]float64, w.s*w.m)
-		w.zy(z, y)
-		g := blas64.General{Rows: w.s * w.m, Cols: w.n, Stride: w.n, Data: w.q}
-		blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: w.s * w.m, Data: z, Inc: 1}, 0, blas64.Vector{N: w.n, Data: dst, Inc: 1})
+		// Rows of Z = [Q_t y]_t a chunk at a time, added in order.
+		rows := w.s * w.m
+		T := min(rows, max(w.m, freeChunk))
+		h, z := getScratch(T)
+		for r0 := 0; r0 < rows; r0 += T {
+			nr := min(T, rows-r0)
+			dotRows(z[:nr], w.q[r0*w.n:], w.n, y)
+			g := blas64.General{Rows: nr, Cols: w.n, Stride: w.n, Data: w.q[r0*w.n : (r0+nr)*w.n]}
+			blas64.Gemv(blas.Trans, 1, g, blas64.Vector{N: nr, Data: z[:nr], Inc: 1}, 1, blas64.Vector{N: w.n, Data: dst, Inc: 1})
+		}
+		putScratch(h)
 	}
 	if w.comp {
 		for j := range dst {

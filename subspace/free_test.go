@@ -1,0 +1,99 @@
+package subspace
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+// A search operator held free of its factor (freeSide) gives the factored
+// operator's numbers bit for bit (derived in applyFree: the factor's rows
+// are made by the same kernels, and the chunks add in order of t as one
+// axpyRows does), alone and in a batch, for both sides, with W and with
+// W⊥ stored, src and dst the same slice or not. The batch's free operators
+// agree with its factored ones (tiles, which may fuse) to 1e-12 relative,
+// common practice for two orderings of the same sums (see
+// TestBatchMatchesOperators).
+func TestFreeOperators(t *testing.T) {
+	rng := rand.New(rand.NewPCG(21, 22))
+	for _, sh := range [][3]int{{2, 300, 250}, {2, 300, 450}, {300, 3, 200}, {4, 90, 100}} {
+		m, n, k := sh[0], sh[1], sh[2]
+		w, err := New(context.Background(), randBasis(rng, k, m, n), Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		name := itoa(m) + "x" + itoa(n) + "/k" + itoa(k)
+		if w.StoresComplement() {
+			name += "/complement"
+		}
+		const B = 6
+		xs, ys := randPoints(rng, B, m), randPoints(rng, B, n)
+		var factored [2]OperatorBatch
+		w.SearchGBatch(&factored[0], ys)
+		w.SearchHBatch(&factored[1], xs)
+		saved := freeMinEntries
+		freeMinEntries = 1
+		var free [2]OperatorBatch
+		w.SearchGBatch(&free[0], ys)
+		w.SearchHBatch(&free[1], xs)
+		for side := 0; side < 2; side++ {
+			p := []int{m, n}[side]
+			if other := []int{n, m}[side]; other > freeMaxSide {
+				if free[side].free != nil {
+					t.Fatalf("%s side %d: free with the other side %d", name, side, other)
+				}
+				continue
+			}
+			if free[side].free == nil {
+				t.Fatalf("%s side %d: not free", name, side)
+			}
+			for b := 0; b < B; b++ {
+				var alone, ref *Operator
+				if side == 0 {
+					alone, ref = w.SearchGOperator(ys[b]), w.GOperator(ys[b])
+				} else {
+					alone, ref = w.SearchHOperator(xs[b]), w.HOperator(xs[b])
+				}
+				if alone.free == nil {
+					t.Fatalf("%s side %d: the single operator is not free", name, side)
+				}
+				v := randSlice(rng, p)
+				want, got, inPlace, batch, tiles := make([]float64, p), make([]float64, p), append([]float64(nil), v...), make([]float64, p), make([]float64, p)
+				ref.Apply(want, v)
+				alone.Apply(got, v)
+				alone.Apply(inPlace, inPlace)
+				free[side].Apply(b, batch, v)
+				factored[side].Apply(b, tiles, v)
+				for i, out := range [][]float64{got, inPlace, batch} {
+					if !bitsEqual(out, want) {
+						t.Fatalf("%s side %d point %d: free result %d differs from the factored operator's", name, side, b, i)
+					}
+				}
+				var diff, nrm float64
+				for i := range want {
+					diff += (want[i] - tiles[i]) * (want[i] - tiles[i])
+					nrm += want[i] * want[i]
+				}
+				if math.Sqrt(diff) > 1e-12*math.Sqrt(nrm) {
+					t.Errorf("%s side %d point %d: free and tiled batches differ by %g (|A v| %g)", name, side, b, math.Sqrt(diff), math.Sqrt(nrm))
+				}
+			}
+			// Matrix of a free operator: its columns are Apply's.
+			a := make([]float64, p*p)
+			free[side].Matrix(0, a)
+			e, col := make([]float64, p), make([]float64, p)
+			for j := 0; j < p; j += max(1, p/7) {
+				e[j] = 1
+				free[side].Apply(0, col, e)
+				e[j] = 0
+				for i := 0; i <= j; i++ {
+					if a[i*p+j] != col[i] || a[j*p+i] != col[i] {
+						t.Fatalf("%s side %d: Matrix (%d, %d) is not Apply's column", name, side, i, j)
+					}
+				}
+			}
+		}
+		freeMinEntries = saved
+	}
+}
