@@ -519,7 +519,9 @@ func (m *merger) report(p Progress, force bool) {
 // CertifyBasis orthonormalises the matrices of b (with Options.Subspace),
 // proves how far the stored basis is from their span, and certifies as
 // Certify does; Report.Input gives the interval for the span of b as given.
-// b is not modified. Errors from the orthonormalisation (bad input) are
+// b is not modified, unless Options.Subspace.Reload is set: then New
+// factors b.Data in place (see subspace.Options.Reload) and the input
+// span is proven from the matrices Reload reads again. Errors from the orthonormalisation (bad input) are
 // returned as they are (see package subspace for the sentinels).
 func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace.Subspace, Report, error) {
 	if err := opt.check(); err != nil {
@@ -537,7 +539,13 @@ func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace
 		return nil, Report{}, err
 	}
 	phase(ProvingInputSpan)
-	th, terr := subspace.InputDistance(ctx, b, w)
+	var th float64
+	var terr error
+	if opt.Subspace.Reload != nil { // b.Data now holds the stored basis: read the input again
+		th, terr = subspace.InputDistanceReload(ctx, b.Count, opt.Subspace.Reload, w)
+	} else {
+		th, terr = subspace.InputDistance(ctx, b, w)
+	}
 	if ctx.Err() != nil {
 		return w, Report{Upper: 1, Stop: Cancelled}, ctx.Err()
 	}
@@ -568,6 +576,15 @@ func CertifyFile(ctx context.Context, path string, opt Options) (*subspace.Subsp
 	}
 	if in.Field == subspace.Complex || opt.Complex {
 		return CertifyComplex(ctx, in.AsComplex(), opt)
+	}
+	if opt.Subspace.Reload == nil {
+		// Our own copy of the file's numbers: factor it in place and read
+		// the file again, checked, where the input is needed after
+		// (subspace.ReloadNPY; .npy in C order only).
+		if reload, closeFile, err := subspace.ReloadNPY(path, in.Real); err == nil {
+			defer closeFile()
+			opt.Subspace.Reload = reload
+		}
 	}
 	return CertifyBasis(ctx, in.Real, opt)
 }

@@ -73,14 +73,42 @@ func InputDistance(ctx context.Context, b Basis, w *Subspace) (theta float64, er
 	if b.Rows != w.m || b.Cols != w.n || b.Count <= 0 || len(b.Data) != b.Count*L {
 		return 0, fmt.Errorf("%w: basis of %d matrices of %d×%d for a subspace of %d×%d matrices", ErrShape, b.Count, b.Rows, b.Cols, w.m, w.n)
 	}
-	var cols [][]float64
-	for t := 0; t < b.Count; t++ {
-		src := b.Data[t*L : (t+1)*L]
+	return inputDistance(ctx, b.Count, func(t int) ([]float64, error) { return b.Data[t*L : (t+1)*L], nil }, w)
+}
+
+// InputDistanceReload is InputDistance for count input matrices read
+// through read (as Options.Reload does: matrix t, m·n entries, into dst),
+// for an input that New factored in place. The bound is proven for the
+// numbers read (twice each: once to count the nonzero matrices, once to
+// copy them); ReloadNPY's function checks that they are the ones New
+// factored. An error from read is returned, wrapped.
+func InputDistanceReload(ctx context.Context, count int, read func(t int, dst []float64) error, w *Subspace) (theta float64, err error) {
+	if count <= 0 || read == nil {
+		return 0, fmt.Errorf("%w: %d input matrices", ErrShape, count)
+	}
+	buf := make([]float64, w.m*w.n)
+	return inputDistance(ctx, count, func(t int) ([]float64, error) {
+		if err := read(t, buf); err != nil {
+			return nil, fmt.Errorf("subspace: reading matrix %d again: %w", t, err)
+		}
+		return buf, nil
+	}, w)
+}
+
+// inputDistance is InputDistance for count matrices given by get (each
+// slice valid until the next call).
+func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, error), w *Subspace) (theta float64, err error) {
+	L := w.m * w.n
+	r := 0
+	for t := 0; t < count; t++ {
+		src, err := get(t)
+		if err != nil {
+			return 0, err
+		}
 		if accurate.MaxAbs(src) != 0 {
-			cols = append(cols, src)
+			r++
 		}
 	}
-	r := len(cols)
 	if r != w.k {
 		return 0, fmt.Errorf("%w: %d nonzero input matrices, the rank decision kept %d (tolerance %.3g)", ErrDependent, r, w.k, w.tol)
 	}
@@ -90,16 +118,29 @@ func InputDistance(ctx context.Context, b Basis, w *Subspace) (theta float64, er
 	}
 	stop := func() bool { return ctx.Err() != nil }
 	bt := make([]float64, r*L) // B̃, row j is scaled input matrix j
-	for j, src := range cols {
-		_, e := math.Frexp(accurate.MaxAbs(src))
+	j := 0
+	for t := 0; t < count && j < r; t++ {
+		src, err := get(t)
+		if err != nil {
+			return 0, err
+		}
+		mx := accurate.MaxAbs(src)
+		if mx == 0 {
+			continue
+		}
+		_, e := math.Frexp(mx)
 		row := bt[j*L : (j+1)*L]
 		for i, v := range src {
 			sv := math.Ldexp(v, 1-e)
 			if math.Ldexp(sv, e-1) != v {
-				return 0, fmt.Errorf("%w: matrix %d cannot be rescaled exactly (entries from %.3g to %.3g)", ErrUnproven, j, v, accurate.MaxAbs(src))
+				return 0, fmt.Errorf("%w: matrix %d cannot be rescaled exactly (entries from %.3g to %.3g)", ErrUnproven, j, v, mx)
 			}
 			row[i] = sv
 		}
+		j++
+	}
+	if j != r { // a reloaded input that changed between the passes
+		return 0, fmt.Errorf("%w: the input gave %d nonzero matrices, then %d", ErrUnproven, r, j)
 	}
 	var num, sigma float64
 	if !w.comp {

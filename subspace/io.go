@@ -3,6 +3,7 @@ package subspace
 import (
 	"bufio"
 	"bytes"
+	"crypto/sha256"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -273,42 +274,11 @@ func readNPYInput(rd io.Reader, maxBytes, size int64) (Input, error) {
 // readNPYData is readNPYInput; with readOnly set, maxBytes bounds the
 // decoded array alone (no orthonormalisation follows).
 func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, error) {
-	var pre [8]byte
-	if _, err := io.ReadFull(rd, pre[:]); err != nil {
-		return Input{}, readFailure(err, "npy: truncated preamble")
-	}
-	if !bytes.Equal(pre[:6], npyMagic) {
-		return Input{}, fmt.Errorf("%w: npy: bad magic bytes", ErrFormat)
-	}
-	var hlen int
-	switch pre[6] {
-	case 1:
-		var l [2]byte
-		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Input{}, readFailure(err, "npy: truncated header length")
-		}
-		hlen = int(binary.LittleEndian.Uint16(l[:]))
-	case 2, 3:
-		var l [4]byte
-		if _, err := io.ReadFull(rd, l[:]); err != nil {
-			return Input{}, readFailure(err, "npy: truncated header length")
-		}
-		h := binary.LittleEndian.Uint32(l[:])
-		if h > 1<<20 {
-			return Input{}, fmt.Errorf("%w: npy: header length %d is implausible", ErrFormat, h)
-		}
-		hlen = int(h)
-	default:
-		return Input{}, fmt.Errorf("%w: npy: unsupported format version %d.%d", ErrFormat, pre[6], pre[7])
-	}
-	hdr := make([]byte, hlen)
-	if _, err := io.ReadFull(rd, hdr); err != nil {
-		return Input{}, readFailure(err, "npy: truncated header")
-	}
-	descr, fortran, shape, err := parseNPYHeader(string(hdr))
+	h, err := readNPYHead(rd)
 	if err != nil {
 		return Input{}, err
 	}
+	descr, fortran, shape := h.descr, h.fortran, h.shape
 	var r, m, n int64
 	switch len(shape) {
 	case 2:
@@ -333,11 +303,7 @@ func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, erro
 	}
 	total *= parts // components to read
 	if size >= 0 {
-		head := int64(len(pre)) + int64(hlen) + 2
-		if pre[6] != 1 {
-			head += 2
-		}
-		if want := head + int64(total)*int64(item); size < want {
+		if want := h.offset + int64(total)*int64(item); size < want {
 			return Input{}, fmt.Errorf("%w: npy: data truncated: shape (%d, %d, %d) needs %d bytes, the file has %d", ErrFormat, r, m, n, want, size)
 		}
 	}
@@ -394,6 +360,141 @@ func readNPYData(rd io.Reader, maxBytes, size int64, readOnly bool) (Input, erro
 		return Input{Field: Complex, Complex: ComplexBasis{Count: ri, Rows: mi, Cols: ni, Data: cd}}, nil
 	}
 	return Input{Field: Real, Real: Basis{Count: ri, Rows: mi, Cols: ni, Data: data}}, nil
+}
+
+// npyHead is what an .npy file's preamble and header say: the dtype, the
+// order, the shape and where the data start.
+type npyHead struct {
+	descr   string
+	fortran bool
+	shape   []int64
+	offset  int64
+}
+
+// readNPYHead reads an .npy file's preamble and header from rd.
+func readNPYHead(rd io.Reader) (npyHead, error) {
+	var pre [8]byte
+	if _, err := io.ReadFull(rd, pre[:]); err != nil {
+		return npyHead{}, readFailure(err, "npy: truncated preamble")
+	}
+	if !bytes.Equal(pre[:6], npyMagic) {
+		return npyHead{}, fmt.Errorf("%w: npy: bad magic bytes", ErrFormat)
+	}
+	var hlen int
+	offset := int64(len(pre))
+	switch pre[6] {
+	case 1:
+		var l [2]byte
+		if _, err := io.ReadFull(rd, l[:]); err != nil {
+			return npyHead{}, readFailure(err, "npy: truncated header length")
+		}
+		hlen = int(binary.LittleEndian.Uint16(l[:]))
+		offset += 2
+	case 2, 3:
+		var l [4]byte
+		if _, err := io.ReadFull(rd, l[:]); err != nil {
+			return npyHead{}, readFailure(err, "npy: truncated header length")
+		}
+		h := binary.LittleEndian.Uint32(l[:])
+		if h > 1<<20 {
+			return npyHead{}, fmt.Errorf("%w: npy: header length %d is implausible", ErrFormat, h)
+		}
+		hlen = int(h)
+		offset += 4
+	default:
+		return npyHead{}, fmt.Errorf("%w: npy: unsupported format version %d.%d", ErrFormat, pre[6], pre[7])
+	}
+	hdr := make([]byte, hlen)
+	if _, err := io.ReadFull(rd, hdr); err != nil {
+		return npyHead{}, readFailure(err, "npy: truncated header")
+	}
+	descr, fortran, shape, err := parseNPYHeader(string(hdr))
+	if err != nil {
+		return npyHead{}, err
+	}
+	return npyHead{descr: descr, fortran: fortran, shape: shape, offset: offset + int64(hlen)}, nil
+}
+
+// ErrChanged reports that a file read again (ReloadNPY) no longer holds
+// the numbers first read from it.
+var ErrChanged = errors.New("subspace: the input file changed while it was in use")
+
+// ReloadNPY returns, for the real data b read from the .npy file at path
+// (by ReadInput or ReadFile, possibly reshaped to other m, n with the same
+// number of entries per matrix), a function for Options.Reload and
+// InputDistanceReload that reads matrix t of the file again into dst, and
+// a function that closes the file. The reader checks what it reads: the
+// SHA-256 of each matrix's numbers is taken now from b, and a matrix read
+// again whose digest differs gives an error wrapping ErrChanged, so that
+// nothing is computed from numbers other than those first read. It needs
+// data in C order (NumPy's default) of a real dtype ReadInput reads; for
+// other files it returns an error wrapping ErrFormat (use them without
+// Reload). The returned function is not safe for concurrent use.
+func ReloadNPY(path string, b Basis) (reload func(t int, dst []float64) error, closeFile func() error, err error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	fail := func(err error) (func(int, []float64) error, func() error, error) {
+		f.Close()
+		return nil, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	h, err := readNPYHead(bufio.NewReader(f))
+	if err != nil {
+		return fail(err)
+	}
+	conv, item, parts, err := npyConverter(h.descr)
+	if err != nil {
+		return fail(err)
+	}
+	total := int64(1)
+	for _, d := range h.shape {
+		total = mulSat(total, d)
+	}
+	L := b.Rows * b.Cols
+	switch {
+	case h.fortran:
+		return fail(fmt.Errorf("%w: npy: Fortran order cannot be read a matrix at a time", ErrFormat))
+	case parts != 1:
+		return fail(fmt.Errorf("%w: npy: complex data", ErrFormat))
+	case L <= 0 || b.Count <= 0 || len(b.Data) != b.Count*L || len(h.shape) < 2 || total != int64(len(b.Data)):
+		return fail(fmt.Errorf("%w: npy: shape %v does not hold %d matrices of %d×%d", ErrShape, h.shape, b.Count, b.Rows, b.Cols))
+	}
+	sums := make([][sha256.Size]byte, b.Count)
+	raw := make([]byte, L*8)
+	for t := range sums {
+		sums[t] = digest(b.Data[t*L:(t+1)*L], raw)
+	}
+	buf := make([]byte, L*item)
+	reload = func(t int, dst []float64) error {
+		if t < 0 || t >= len(sums) || len(dst) != L {
+			return fmt.Errorf("%w: matrix %d of %d into %d entries", ErrShape, t, len(sums), len(dst))
+		}
+		if _, err := f.ReadAt(buf, h.offset+int64(t)*int64(L)*int64(item)); err != nil {
+			return fmt.Errorf("%s: matrix %d: %w", path, t, readFailure(err, "npy: data truncated"))
+		}
+		for i := range dst {
+			v, err := conv(buf[i*item : (i+1)*item])
+			if err != nil {
+				return fmt.Errorf("%w: %s: matrix %d: %v", ErrFormat, path, t, err)
+			}
+			dst[i] = v
+		}
+		if digest(dst, raw) != sums[t] {
+			return fmt.Errorf("%w: %s: matrix %d differs from the first reading", ErrChanged, path, t)
+		}
+		return nil
+	}
+	return reload, f.Close, nil
+}
+
+// digest returns the SHA-256 of the little-endian bytes of v, using raw
+// (8·len(v) bytes) as work space.
+func digest(v []float64, raw []byte) [sha256.Size]byte {
+	for i, x := range v {
+		binary.LittleEndian.PutUint64(raw[8*i:], math.Float64bits(x))
+	}
+	return sha256.Sum256(raw[:8*len(v)])
 }
 
 // parseNPYHeader parses the Python dict literal of an .npy header.

@@ -96,7 +96,7 @@ func oldOrthogonality(q []float64, s, L int, sf float64) (computed, bound float6
 // before issue 16 and returns the stored vectors, η, the computed
 // ‖SSᵀ − I‖_F and the reconstruction error.
 func oldFactor(t *testing.T, b Basis, tol float64, keepW bool) (q []float64, eta, orth, recon float64) {
-	in, err := normalise(b)
+	in, err := normalise(b, false)
 	if err != nil {
 		t.Fatal(err)
 	}

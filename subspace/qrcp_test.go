@@ -135,7 +135,7 @@ func TestBlockedQRRankRule(t *testing.T) {
 				t.Errorf("Dim = %d, want %d", w.Dim(), c.wantDim)
 			}
 			// The same factorisation as New's, to see its pivots.
-			in, err := normalise(c.b)
+			in, err := normalise(c.b, false)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -85,6 +85,17 @@ type Options struct {
 	// estimated fraction of New's work done so far, in [0, 1], at most every
 	// 200 ms, and with 1 when New succeeds. Nil means no reports.
 	Progress func(fraction float64)
+	// Reload, if set, lets New work in the caller's array: b.Data is
+	// normalised and factored where it is, so New holds no copy of the
+	// input (a third of its peak memory otherwise), and afterwards b.Data
+	// holds the stored basis or meaningless numbers (do not use b again;
+	// the Subspace may keep b.Data as its storage). New then reads the
+	// input matrices again through Reload, matrix t (as stored in b.Data
+	// before, m·n entries) into dst, for the reconstruction error it
+	// reports; an error from Reload ends New with that error. Reload must
+	// give the numbers b.Data held (ReloadNPY's function checks them). Nil
+	// means New copies the input and leaves b.Data as it was.
+	Reload func(t int, dst []float64) error
 
 	keepW bool // store W even when W⊥ is smaller (the complex path needs W)
 }
@@ -169,7 +180,7 @@ func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	if err != nil {
 		return nil, err
 	}
-	in, err := normalise(b)
+	in, err := normalise(b, opt.Reload != nil)
 	if err != nil {
 		return nil, err
 	}
@@ -237,12 +248,19 @@ type normalised struct {
 }
 
 // normalise copies the nonzero matrices of a validated b, each scaled to
-// unit Frobenius norm. It returns an error wrapping ErrZero when every
-// matrix is zero.
-func normalise(b Basis) (*normalised, error) {
+// unit Frobenius norm; inPlace, it moves them to the front of b.Data
+// instead (matrix t to place c ≤ t, in order, so that each move reads a
+// matrix not yet overwritten) and scales them there. It returns an error
+// wrapping ErrZero when every matrix is zero.
+func normalise(b Basis, inPlace bool) (*normalised, error) {
 	r, m, n := b.Count, b.Rows, b.Cols
 	L := m * n
-	in := &normalised{a: make([]float64, 0, L*r)}
+	in := &normalised{}
+	if inPlace {
+		in.a = b.Data[: 0 : L*r]
+	} else {
+		in.a = make([]float64, 0, L*r)
+	}
 	for t := 0; t < r; t++ {
 		src := b.Data[t*L : (t+1)*L]
 		nrm := blas64.Nrm2(blas64.Vector{N: L, Data: src, Inc: 1})
@@ -250,7 +268,7 @@ func normalise(b Basis) (*normalised, error) {
 			in.zeros++
 			continue
 		}
-		in.a = append(in.a, src...)
+		in.a = append(in.a, src...) // in place: a move within b.Data (copy allows the overlap)
 		f, sh := unitScale(in.a[len(in.a)-L:], nrm)
 		in.scale = append(in.scale, f)
 		in.shift = append(in.shift, sh)
@@ -355,7 +373,22 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	f.formQWith(g, a, L, stop, pr.add)
 	qw := a[:k*L]
 	var work []float64 // the reconstruction's chunk, then the Gram matrix's panel
-	w.recon = reconstruction(g, b.Data, in.orig, in.scale, in.shift, f, a, L, stop, &work)
+	input := func(t int) ([]float64, error) { return b.Data[t*L : (t+1)*L], nil }
+	if opt.Reload != nil {
+		h, buf := getScratch(L)
+		defer putScratch(h)
+		input = func(t int) ([]float64, error) {
+			if err := opt.Reload(t, buf); err != nil {
+				return nil, fmt.Errorf("subspace: reading matrix %d again: %w", t, err)
+			}
+			return buf, nil
+		}
+	}
+	var rerr error
+	w.recon, rerr = reconstruction(g, input, in.orig, in.scale, in.shift, f, a, L, stop, &work)
+	if rerr != nil {
+		return nil, rerr
+	}
 	pr.add(float64(rr) * float64(k) * float64(L))
 	if !w.comp {
 		w.s = k
@@ -488,7 +521,7 @@ func mulOK(a, b int) (int, bool) {
 // every entry of a product is the same sum in the same order however its
 // rows are grouped (gemm.go), so the result is the one of a single
 // product over a full Rᵀ.
-func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, shift []int, f *qrFactors, a []float64, L int, stop func() bool, work *[]float64) float64 {
+func reconstruction(g *gemmPool, input func(t int) ([]float64, error), orig []int, scale []float64, shift []int, f *qrFactors, a []float64, L int, stop func() bool, work *[]float64) (float64, error) {
 	rr, k := len(orig), f.k
 	chunk := reconChunk(rr)
 	q := a[:k*L]
@@ -509,7 +542,10 @@ func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, sh
 		}
 		for j := c0; j < c1; j++ {
 			col := f.perm[j]
-			src := data[orig[col]*L : (orig[col]+1)*L]
+			src, err := input(orig[col])
+			if err != nil {
+				return 0, err
+			}
 			sc, sh := scale[col], shift[col]
 			row := qr[(j-c0)*L : (j-c0+1)*L]
 			for i, v := range src {
@@ -521,7 +557,7 @@ func reconstruction(g *gemmPool, data []float64, orig []int, scale []float64, sh
 			}
 		}
 	}
-	return math.Sqrt(ss / float64(rr))
+	return math.Sqrt(ss / float64(rr)), nil
 }
 
 // reconChunk is the number of columns of QR that reconstruction forms at

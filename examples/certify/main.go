@@ -223,6 +223,16 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if in.Field == subspace.Complex || c.field == "complex" {
 		w, rep, err = segre.CertifyComplex(ctx, in.AsComplex(), opt)
 	} else {
+		if c.file != "" {
+			// The numbers read are ours: let the orthonormalisation work in
+			// them, and read the file again (checked against what was read)
+			// where the input is needed afterwards. A file that cannot be
+			// read a matrix at a time (text, Fortran order) is copied.
+			if reload, closeFile, rerr := subspace.ReloadNPY(c.file, in.Real); rerr == nil {
+				defer closeFile()
+				opt.Subspace.Reload = reload
+			}
+		}
 		w, rep, err = segre.CertifyBasis(ctx, in.Real, opt)
 	}
 	if err == nil && c.proof != "" {
