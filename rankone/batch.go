@@ -75,9 +75,22 @@ func (a *ALS) RefineBatch(ctx context.Context, w *subspace.Subspace, xs, ys [][]
 
 // batchFit returns how many starts one batch may hold within
 // 1/batchShare of w's memory limit (at least one).
+//
+// Besides, the points' factors (what grows with the batch) take at most a
+// quarter of the stored basis's memory, or 1 MiB when that is more: the
+// basis is what a run must hold, and a search that holds as much again
+// beside it for a faster product had made the factors the largest
+// allocation of a run after the basis (issue 16: certify's peak).
 func batchFit(w *subspace.Subspace) int {
 	per := 2 * w.BatchBytes(1) // the G and H operators
-	return int(max(1, w.MemoryLimit()/batchShare/max(per, 1)))
+	fit := max(1, w.MemoryLimit()/batchShare/max(per, 1))
+	s := int64(w.Dim())
+	if w.StoresComplement() {
+		s = int64(w.Rows())*int64(w.Cols()) - s
+	}
+	point := max(1, w.BatchBytes(2)-w.BatchBytes(1)) // one more point's factors
+	budget := max(8*s*int64(w.Rows())*int64(w.Cols())/4, 1<<20)
+	return int(max(1, min(fit, budget/point)))
 }
 
 // refineChunk runs ALS from the starts (xs[i], ys[i]), all at once.

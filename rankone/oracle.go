@@ -26,8 +26,8 @@ func (o *oracle) HOperator(x []float64) *subspace.Operator {
 	o.evals++
 	return o.w.SearchHOperator(x)
 }
-func (o *oracle) ApplyG(dst, y, x []float64)      { o.evals++; o.w.SearchGOperator(y).Apply(dst, x) }
-func (o *oracle) ApplyH(dst, x, y []float64)      { o.evals++; o.w.SearchHOperator(x).Apply(dst, y) }
+func (o *oracle) ApplyG(dst, y, x []float64)      { o.evals++; o.w.SearchApplyG(dst, y, x) }
+func (o *oracle) ApplyH(dst, x, y []float64)      { o.evals++; o.w.SearchApplyH(dst, x, y) }
 func (o *oracle) Project(dst, a []float64)        { o.evals++; o.w.SearchProject(dst, a) }
 func (o *oracle) Residual(x, y []float64) float64 { o.evals++; return o.w.Residual(x, y) }
 func (o *oracle) Value(x, y []float64) float64    { o.evals++; return o.w.Value(x, y) }

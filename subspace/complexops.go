@@ -1,6 +1,7 @@
 package subspace
 
 import (
+	"fmt"
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 )
@@ -117,6 +118,31 @@ func (w *Subspace) SearchHOperator(x []float64) *Operator {
 		}
 	}
 	return op
+}
+
+// SearchApplyG sets dst = G(y)·x, as SearchGOperator(y).Apply(dst, x)
+// does and with the same bits, without holding G(y)'s factor for a real
+// subspace: its rows are made a chunk at a time (applyFree), one pass
+// over the basis. It panics on wrong lengths.
+func (w *Subspace) SearchApplyG(dst, y, x []float64) { w.searchApply(true, dst, y, x) }
+
+// SearchApplyH sets dst = H(x)·y as SearchApplyG does for G.
+func (w *Subspace) SearchApplyH(dst, x, y []float64) { w.searchApply(false, dst, x, y) }
+
+// searchApply is SearchApplyG (gSide) or SearchApplyH: dst = A(v)·u.
+func (w *Subspace) searchApply(gSide bool, dst, v, u []float64) {
+	op, vLen, p := w.SearchHOperator, w.m, w.n
+	if gSide {
+		op, vLen, p = w.SearchGOperator, w.n, w.m
+	}
+	if w.cx != nil || w.s == 0 {
+		op(v).Apply(dst, u)
+		return
+	}
+	if len(v) != vLen || len(u) != p || len(dst) != p {
+		panic(fmt.Sprintf("subspace: search operator of order %d at a point of length %d: have %d, %d and %d", p, vLen, len(v), len(u), len(dst)))
+	}
+	applyFree(w, gSide, v, p, w.comp, dot(v, v), dst, u)
 }
 
 // xPair returns (x_r, x_i) and (x_i, −x_r) for X = (x_r, x_i) of length

@@ -59,6 +59,17 @@ func TestFreeOperators(t *testing.T) {
 					t.Fatalf("%s side %d: the single operator is not free", name, side)
 				}
 				v := randSlice(rng, p)
+				// SearchApply: the operator's Apply without its factor.
+				direct, viaOp := make([]float64, p), make([]float64, p)
+				if side == 0 {
+					w.SearchApplyG(direct, ys[b], v)
+				} else {
+					w.SearchApplyH(direct, xs[b], v)
+				}
+				ref.Apply(viaOp, v)
+				if !bitsEqual(direct, viaOp) {
+					t.Fatalf("%s side %d point %d: SearchApply differs from the operator's Apply", name, side, b)
+				}
 				want, got, inPlace, batch, tiles := make([]float64, p), make([]float64, p), append([]float64(nil), v...), make([]float64, p), make([]float64, p)
 				ref.Apply(want, v)
 				alone.Apply(got, v)
@@ -95,5 +106,28 @@ func TestFreeOperators(t *testing.T) {
 			}
 		}
 		freeMinEntries = saved
+	}
+}
+
+// SearchApplyG and SearchApplyH give the search operators' Apply bit for
+// bit (derived in applyFree), for both sides of real subspaces with W and
+// with W⊥ stored, and of a complex one (where they are that Apply).
+func TestSearchApply(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 24))
+	for _, c := range batchCases(t, rng) {
+		w := c.w
+		for trial := 0; trial < 3; trial++ {
+			x, y := randSlice(rng, w.Rows()), randSlice(rng, w.Cols())
+			u, v := randSlice(rng, w.Rows()), randSlice(rng, w.Cols())
+			g1, g2 := make([]float64, w.Rows()), make([]float64, w.Rows())
+			h1, h2 := make([]float64, w.Cols()), make([]float64, w.Cols())
+			w.SearchApplyG(g1, y, u)
+			w.SearchGOperator(y).Apply(g2, u)
+			w.SearchApplyH(h1, x, v)
+			w.SearchHOperator(x).Apply(h2, v)
+			if !bitsEqual(g1, g2) || !bitsEqual(h1, h2) {
+				t.Fatalf("%s: SearchApply differs from the operator's Apply", c.name)
+			}
+		}
 	}
 }
