@@ -63,6 +63,9 @@ func (a *ALS) RefineBatch(ctx context.Context, w *subspace.Subspace, xs, ys [][]
 	}
 	stats := make([]Stats, len(xs))
 	fit := batchFit(w)
+	if chunks := (len(xs) + fit - 1) / fit; chunks > 0 {
+		fit = (len(xs) + chunks - 1) / chunks // even chunks, none larger
+	}
 	var err error
 	for lo := 0; lo < len(xs); lo += fit {
 		hi := min(len(xs), lo+fit)
@@ -76,11 +79,13 @@ func (a *ALS) RefineBatch(ctx context.Context, w *subspace.Subspace, xs, ys [][]
 // batchFit returns how many starts one batch may hold within
 // 1/batchShare of w's memory limit (at least one).
 //
-// Besides, the points' factors (what grows with the batch) take at most a
-// quarter of the stored basis's memory, or 1 MiB when that is more: the
-// basis is what a run must hold, and a search that holds as much again
-// beside it for a faster product had made the factors the largest
-// allocation of a run after the basis (issue 16: certify's peak).
+// Besides, the points' operators (what grows with the batch) take at most
+// half the stored basis's memory, or 1 MiB when that is more: the basis is
+// what a run must hold, and searches that held as much again beside it
+// had made their operators the largest allocation of a run after the
+// basis (issue 16: certify's peak). For m×n factors that is min(m, n)/2
+// points (32 at 64×64): fewer make each product read the basis for fewer
+// points (16 at 64×64 k256 made ALS 1.8× slower, measured).
 func batchFit(w *subspace.Subspace) int {
 	per := 2 * w.BatchBytes(1) // the G and H operators
 	fit := max(1, w.MemoryLimit()/batchShare/max(per, 1))
@@ -88,9 +93,8 @@ func batchFit(w *subspace.Subspace) int {
 	if w.StoresComplement() {
 		s = int64(w.Rows())*int64(w.Cols()) - s
 	}
-	point := max(1, w.BatchBytes(2)-w.BatchBytes(1)) // one more point's factors
-	budget := max(8*s*int64(w.Rows())*int64(w.Cols())/4, 1<<20)
-	return int(max(1, min(fit, budget/point)))
+	budget := max(8*s*int64(w.Rows())*int64(w.Cols())/2, 1<<20)
+	return int(max(1, min(fit, budget/max(1, w.PointBytes()))))
 }
 
 // refineChunk runs ALS from the starts (xs[i], ys[i]), all at once.

@@ -159,6 +159,25 @@ func (w *Subspace) BatchBytes(count int) int64 {
 	return 8 * (k*s*p + k*p + s + max(g, h))
 }
 
+// PointBytes returns the bytes of one point's operator in an
+// OperatorBatch of w (its factor, or its formed triangle in the pair form;
+// the larger side's): what a batch's memory grows by per point, apart
+// from vectors of the points' lengths.
+func (w *Subspace) PointBytes() int64 {
+	if w.cx != nil {
+		kc, p := int64(w.ComplexDim()), int64(2*max(w.cx.m, w.cx.n))
+		return 8 * 2 * kc * p
+	}
+	if M, N, ok := w.pairSizes(); ok {
+		return 8 * int64(max(M, N))
+	}
+	p := int64(max(w.m, w.n))
+	if w.freeSide(w.n, w.m) || w.freeSide(w.m, w.n) {
+		p = int64(min(w.m, w.n))
+	}
+	return 8 * int64(w.s) * p
+}
+
 // pairMaxSide is the largest side for which the pair form is used: it
 // gives the operators as formed p×p matrices, whose products cost p² each,
 // which only pays for small sides (at 2×1000 with a few stored vectors the

@@ -2,6 +2,7 @@ package subspace
 
 import (
 	"fmt"
+
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 )
