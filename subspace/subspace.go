@@ -330,7 +330,11 @@ func unitScale(row []float64, nrm float64) (f float64, sh int) {
 // and the reconstruction error it reports, which is computed afresh from
 // the caller's data and the stored Q and R.
 //
-// Memory (issue 16). The caller's data are only read. Their one copy, the
+// Memory (issue 16). The caller's data are only read, unless
+// Options.Reload is set: then the normalised array is the caller's own
+// (normalise moved and scaled the matrices there), no copy is made, and
+// the reconstruction reads the input again, a matrix at a time, through
+// Reload. Their one copy (or the caller's array), the
 // normalised rr×L array, is factored in place and turned into Q in place
 // (as LAPACK's xORGQR does), and when W is stored its first k rows are
 // the stored vectors, without a copy. Forming Q overwrites the first k
