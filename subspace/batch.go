@@ -215,12 +215,11 @@ func (w *Subspace) SearchGBatch(ob *OperatorBatch, ys [][]float64) {
 		w.complexGBatch(ob, ys)
 		return
 	}
-	m, n := w.m, w.n
 	if M, N, ok := w.pairSizes(); ok {
-		ob.pairBatch(w, sideG, ys, m, M, N)
+		ob.pairBatch(w, sideG, ys, w.m, M, N)
 		return
 	}
-	ob.realSide(w, ys, m, n, stored{src: w.q, byRows: true, perm: m, s: w.s}, ob.realG)
+	ob.realSide(w, ys, true, stored{src: w.q, byRows: true, perm: w.m, s: w.s})
 }
 
 // SearchHBatch sets ob to the search operators H(x_b) (order n) of the
@@ -236,19 +235,23 @@ func (w *Subspace) SearchHBatch(ob *OperatorBatch, xs [][]float64) {
 		w.complexHBatch(ob, xs)
 		return
 	}
-	m, n := w.m, w.n
 	if M, N, ok := w.pairSizes(); ok {
-		ob.pairBatch(w, sideH, xs, n, N, M)
+		ob.pairBatch(w, sideH, xs, w.n, N, M)
 		return
 	}
-	ob.realSide(w, xs, n, m, stored{src: w.q, C: n, perm: n, s: w.s}, ob.realH)
+	ob.realSide(w, xs, false, stored{src: w.q, C: w.n, perm: w.n, s: w.s})
 }
 
-// realSide sets ob to the operators (order p) of the points pts (each of
-// length K) of a real subspace's side whose stored layout is st: by the
-// one-point path (productFew) for fewer than four points, else by tiles
-// (realG or realH).
-func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, p, K int, st stored, tiles func(*Subspace, int)) {
+// realSide sets ob to the operators G(y_b) (gSide; order m, points of
+// length n) or H(x_b) of the points pts of a real subspace, whose factors'
+// stored layout is st: free of their factors when freeSide says so, by
+// the one-point path (productFew) for fewer than four points, else by
+// tiles (realG or realH).
+func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, gSide bool, st stored) {
+	p, K, tiles := w.n, w.m, ob.realH
+	if gSide {
+		p, K, tiles = w.m, w.n, ob.realG
+	}
 	B := len(pts)
 	if w.freeSide(p, K) {
 		// Free of their factors: the points alone, each Apply a pass
@@ -257,7 +260,7 @@ func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, p, K int, st sto
 		ob.shift = grow(&ob.shift, B)
 		ob.c = grow(&ob.c, p)
 		ob.stack(pts, K)
-		ob.free, ob.gSide, ob.k = w, p == w.m && K == w.n, K
+		ob.free, ob.gSide, ob.k = w, gSide, K
 		return
 	}
 	ob.reset(B, w.s, p, w.comp)
@@ -937,7 +940,7 @@ func (ob *OperatorBatch) applyFormed(b int, dst, src []float64) {
 // triangle of point b's matrix.
 func (ob *OperatorBatch) pairBatch(w *Subspace, side int, pts [][]float64, p, P, K int) {
 	B := len(pts)
-	ob.count, ob.s, ob.p, ob.comp, ob.formed = B, w.s, p, w.comp, true
+	ob.count, ob.s, ob.p, ob.comp, ob.formed, ob.free = B, w.s, p, w.comp, true, nil
 	ob.z = grow(&ob.z, B*P)
 	ob.shift = grow(&ob.shift, B)
 	ob.v = grow(&ob.v, B*K)
