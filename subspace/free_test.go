@@ -131,3 +131,44 @@ func TestSearchApply(t *testing.T) {
 		}
 	}
 }
+
+// An OperatorBatch reused from a free batch for another subspace (pair
+// form, factors) gives what a fresh one gives, bit for bit: no mark of
+// the free batch is left (derived here: every builder sets or clears it).
+func TestFreeBatchReused(t *testing.T) {
+	rng := rand.New(rand.NewPCG(25, 26))
+	ctx := context.Background()
+	tiny, err := New(ctx, randBasis(rng, 250, 2, 300), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	saved := freeMinEntries
+	freeMinEntries = 1
+	defer func() { freeMinEntries = saved }()
+	for _, sh := range [][3]int{{5, 7, 9}, {20, 30, 40}} {
+		w, err := New(ctx, randBasis(rng, sh[2], sh[0], sh[1]), Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var reused, fresh OperatorBatch
+		tiny.SearchHBatch(&reused, randPoints(rng, 5, 2))
+		if reused.free == nil {
+			t.Fatal("the first batch is not free")
+		}
+		ys := randPoints(rng, 5, sh[1])
+		w.SearchGBatch(&reused, ys)
+		w.SearchGBatch(&fresh, ys)
+		if reused.free != nil {
+			t.Fatalf("%dx%d: the reused batch keeps the free mark", sh[0], sh[1])
+		}
+		p := sh[0]
+		a, b := make([]float64, p*p), make([]float64, p*p)
+		for k := 0; k < 5; k++ {
+			reused.Matrix(k, a)
+			fresh.Matrix(k, b)
+			if !bitsEqual(a, b) {
+				t.Fatalf("%dx%d: point %d: the reused batch differs", sh[0], sh[1], k)
+			}
+		}
+	}
+}
