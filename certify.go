@@ -521,8 +521,9 @@ func (m *merger) report(p Progress, force bool) {
 // Certify does; Report.Input gives the interval for the span of b as given.
 // b is not modified, unless Options.Subspace.Reload is set: then New
 // factors b.Data in place (see subspace.Options.Reload) and the input
-// span is proven from the matrices Reload reads again. Errors from the orthonormalisation (bad input) are
-// returned as they are (see package subspace for the sentinels).
+// span is proven from the matrices Reload reads again. Errors from the
+// orthonormalisation (bad input) are returned as they are (see package
+// subspace for the sentinels).
 func CertifyBasis(ctx context.Context, b subspace.Basis, opt Options) (*subspace.Subspace, Report, error) {
 	if err := opt.check(); err != nil {
 		return nil, Report{}, err

@@ -154,7 +154,7 @@ func (w *Subspace) BatchBytes(count int) int64 {
 	// block; realH a result block and a packed strip block, each at most
 	// hBlockEntries or one matrix wide (n+23 columns).
 	m, n, np := int64(w.m), int64(w.n), k+23
-	g := np*p + tileM*np
+	g := np*max(m, n) + tileM*np
 	h := 2*hBlockEntries + (n+23)*(min(k, tileM)+min(tileK, m))
 	return 8 * (k*s*p + k*p + s + max(g, h))
 }

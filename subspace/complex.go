@@ -172,6 +172,7 @@ func NewComplex(ctx context.Context, cb ComplexBasis, opt Options) (*Subspace, e
 	}
 	ropt := opt
 	ropt.keepW = true
+	ropt.Reload = nil // it reads the caller's complex matrices, not br's realified ones
 	br := realify(cb)
 	wr, err := New(ctx, br, ropt)
 	if err != nil {

@@ -73,6 +73,12 @@ func InputDistance(ctx context.Context, b Basis, w *Subspace) (theta float64, er
 	if b.Rows != w.m || b.Cols != w.n || b.Count <= 0 || len(b.Data) != b.Count*L {
 		return 0, fmt.Errorf("%w: basis of %d matrices of %d×%d for a subspace of %d×%d matrices", ErrShape, b.Count, b.Rows, b.Cols, w.m, w.n)
 	}
+	if w.inPlace {
+		// New overwrote the caller's array: a b that is that array now
+		// holds the stored basis or meaningless numbers, and nothing here
+		// can tell it from a copy of the input.
+		return 0, fmt.Errorf("%w: the subspace was built in the input's array (Options.Reload); prove its input span with InputDistanceReload", ErrUnproven)
+	}
 	return inputDistance(ctx, b.Count, func(t int) ([]float64, error) { return b.Data[t*L : (t+1)*L], nil }, w)
 }
 
@@ -119,7 +125,7 @@ func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, e
 	stop := func() bool { return ctx.Err() != nil }
 	bt := make([]float64, r*L) // B̃, row j is scaled input matrix j
 	j := 0
-	for t := 0; t < count && j < r; t++ {
+	for t := 0; t < count; t++ {
 		src, err := get(t)
 		if err != nil {
 			return 0, err
@@ -127,6 +133,9 @@ func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, e
 		mx := accurate.MaxAbs(src)
 		if mx == 0 {
 			continue
+		}
+		if j == r { // a reloaded input that changed between the passes
+			return 0, fmt.Errorf("%w: the input gave %d nonzero matrices, then more", ErrUnproven, r)
 		}
 		_, e := math.Frexp(mx)
 		row := bt[j*L : (j+1)*L]

@@ -420,8 +420,9 @@ func readNPYHead(rd io.Reader) (npyHead, error) {
 var ErrChanged = errors.New("subspace: the input file changed while it was in use")
 
 // ReloadNPY returns, for the real data b read from the .npy file at path
-// (by ReadInput or ReadFile, possibly reshaped to other m, n with the same
-// number of entries per matrix), a function for Options.Reload and
+// (by ReadInput or ReadFile, possibly reshaped: any count and shape with
+// the file's number of entries, matrix t being the t-th run of m·n of
+// them in C order), a function for Options.Reload and
 // InputDistanceReload that reads matrix t of the file again into dst, and
 // a function that closes the file. The reader checks what it reads: the
 // SHA-256 of each matrix's numbers is taken now from b, and a matrix read
@@ -429,7 +430,9 @@ var ErrChanged = errors.New("subspace: the input file changed while it was in us
 // nothing is computed from numbers other than those first read. It needs
 // data in C order (NumPy's default) of a real dtype ReadInput reads; for
 // other files it returns an error wrapping ErrFormat (use them without
-// Reload). The returned function is not safe for concurrent use.
+// Reload), and for a b that does not match the file's number of entries
+// one wrapping ErrShape. The returned function is not safe for concurrent
+// use.
 func ReloadNPY(path string, b Basis) (reload func(t int, dst []float64) error, closeFile func() error, err error) {
 	f, err := os.Open(path)
 	if err != nil {
@@ -451,13 +454,16 @@ func ReloadNPY(path string, b Basis) (reload func(t int, dst []float64) error, c
 	for _, d := range h.shape {
 		total = mulSat(total, d)
 	}
-	L := b.Rows * b.Cols
+	L, okL := mulOK(b.Rows, b.Cols)
+	all, okAll := mulOK(L, b.Count)
 	switch {
+	case b.Rows <= 0 || b.Cols <= 0 || b.Count <= 0 || !okL || !okAll:
+		return fail(fmt.Errorf("%w: %d matrices of %d×%d", ErrShape, b.Count, b.Rows, b.Cols))
 	case h.fortran:
 		return fail(fmt.Errorf("%w: npy: Fortran order cannot be read a matrix at a time", ErrFormat))
 	case parts != 1:
 		return fail(fmt.Errorf("%w: npy: complex data", ErrFormat))
-	case L <= 0 || b.Count <= 0 || len(b.Data) != b.Count*L || len(h.shape) < 2 || total != int64(len(b.Data)):
+	case len(b.Data) != all || len(h.shape) < 2 || total != int64(all):
 		return fail(fmt.Errorf("%w: npy: shape %v does not hold %d matrices of %d×%d", ErrShape, h.shape, b.Count, b.Rows, b.Cols))
 	}
 	sums := make([][sha256.Size]byte, b.Count)

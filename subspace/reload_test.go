@@ -126,3 +126,72 @@ func TestReloadRefuses(t *testing.T) {
 		}
 	}
 }
+
+// A Subspace built in the input's array proves its input span only through
+// InputDistanceReload: InputDistance refuses (ErrUnproven), since the
+// array now holds the stored basis and "proving" it against itself would
+// give a bound near zero whatever the input was. A reload whose second
+// pass gives more nonzero matrices than the first is refused too.
+func TestInputDistanceInPlaceRefused(t *testing.T) {
+	rng := rand.New(rand.NewPCG(35, 36))
+	ctx := context.Background()
+	b := randBasis(rng, 6, 4, 5)
+	clear(b.Data[2*20 : 3*20])
+	orig := append([]float64(nil), b.Data...)
+	reads := 0
+	reload := func(t int, dst []float64) error {
+		reads++
+		copy(dst, orig[t*20:(t+1)*20])
+		return nil
+	}
+	w, err := New(ctx, b, Options{Reload: reload})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := InputDistance(ctx, b, w); !errors.Is(err, ErrUnproven) {
+		t.Errorf("InputDistance on the overwritten array: %v, want ErrUnproven", err)
+	}
+	if _, err := InputDistanceReload(ctx, 6, reload, w); err != nil {
+		t.Errorf("InputDistanceReload: %v", err)
+	}
+	pass := 0
+	changing := func(t int, dst []float64) error {
+		if t == 0 {
+			pass++
+		}
+		copy(dst, orig[t*20:(t+1)*20])
+		if pass == 2 && t == 2 {
+			dst[5] = 1 // the zero matrix is not zero the second time
+		}
+		return nil
+	}
+	if _, err := InputDistanceReload(ctx, 6, changing, w); !errors.Is(err, ErrUnproven) {
+		t.Errorf("a second pass with one more nonzero matrix: %v, want ErrUnproven", err)
+	}
+}
+
+// ReloadNPY refuses counts and shapes whose products overflow (ErrShape,
+// no panic), and NewComplex does not hand Reload to its realified copy
+// (which is its own: Reload reads the caller's complex matrices).
+func TestReloadShapesAndComplex(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "empty.npy")
+	if err := os.WriteFile(p, npyBytes(1, "<f8", false, "(0, 4)", nil), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	for _, b := range []Basis{{Count: 1 << 62, Rows: 1, Cols: 4}, {Count: 4, Rows: 1 << 31, Cols: 1 << 31}, {Count: 0, Rows: 1, Cols: 4}} {
+		if _, _, err := ReloadNPY(p, b); !errors.Is(err, ErrShape) {
+			t.Errorf("%d×%d×%d: %v, want ErrShape", b.Count, b.Rows, b.Cols, err)
+		}
+	}
+	rng := rand.New(rand.NewPCG(37, 38))
+	d := make([]complex128, 3*2*3)
+	for i := range d {
+		d[i] = complex(rng.NormFloat64(), rng.NormFloat64())
+	}
+	called := false
+	_, err := NewComplex(context.Background(), ComplexBasis{Count: 3, Rows: 2, Cols: 3, Data: d}, Options{Reload: func(int, []float64) error { called = true; return nil }})
+	if err != nil || called {
+		t.Errorf("NewComplex with Reload: error %v, Reload called %v", err, called)
+	}
+}

@@ -110,6 +110,7 @@ type Subspace struct {
 	limit   int64 // Options.MaxBytes (or its default)
 
 	inputs, zeros int
+	inPlace       bool    // built with Options.Reload: the caller's array holds other numbers now
 	recon         float64 // ‖B̂Π − QR‖_F / ‖B̂‖_F for the unit-normalised input B̂
 	orthFl        float64 // ‖SSᵀ − I‖_F as computed
 	eta           float64 // proven bound on ‖SSᵀ − I‖₂
@@ -165,7 +166,12 @@ func (w *Subspace) RankGap() (kept, left float64) { return w.rankKept, w.rankLef
 // inflate by η where orthonormality is used.
 func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 
-// New builds the subspace spanned by the matrices of b. b is not modified.
+// New builds the subspace spanned by the matrices of b. b is not modified,
+// unless Options.Reload is set: then b.Data is New's work space and holds
+// the stored basis or meaningless numbers afterwards, also when New
+// fails after validating (an error from the normalisation or later,
+// cancellation included), and the Subspace proves its input span only
+// through InputDistanceReload.
 // It runs on min(GOMAXPROCS, 8) goroutines; the result does not depend on
 // their number. The factorisation checks ctx between its steps and inside
 // its products (every few milliseconds for inputs of tens of megabytes)
@@ -173,8 +179,9 @@ func (w *Subspace) OrthogonalityBound() float64 { return w.eta }
 // then. Options.Progress, if set, hears how far it has got.
 //
 // It runs three steps: validate (options, shapes, memory, finiteness),
-// normalise (unit-norm copies of the nonzero matrices) and factor (pivoted
-// QR, the stored basis and its checks).
+// normalise (unit-norm copies of the nonzero matrices, or with Reload the
+// matrices scaled where they are) and factor (pivoted QR, the stored basis
+// and its checks).
 func New(ctx context.Context, b Basis, opt Options) (*Subspace, error) {
 	tol, limit, err := validate(b, opt)
 	if err != nil {
@@ -365,7 +372,7 @@ func factor(ctx context.Context, b Basis, in *normalised, tol float64, limit int
 	}
 	f.saveR(a, L)
 	k := f.k
-	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: b.Count, zeros: in.zeros, rankLeft: f.left}
+	w := &Subspace{m: m, n: n, k: k, tol: tol, limit: limit, inputs: b.Count, zeros: in.zeros, rankLeft: f.left, inPlace: opt.Reload != nil}
 	if k > 0 {
 		w.rankKept = math.Abs(f.diag[k-1])
 	}

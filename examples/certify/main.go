@@ -12,6 +12,8 @@ package main
 
 import (
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"flag"
@@ -554,11 +556,18 @@ func writeProof(path, input string, rep segre.Report) error {
 		return fmt.Errorf("no proof was built")
 	}
 	if input != "" {
-		data, err := os.ReadFile(input)
+		// Streamed: the file may be as large as the input array.
+		f, err := os.Open(input)
 		if err != nil {
 			return err
 		}
-		rep.Proof.File.InputSHA256 = proof.SHA256(data)
+		h := sha256.New()
+		_, err = io.Copy(h, f)
+		f.Close()
+		if err != nil {
+			return err
+		}
+		rep.Proof.File.InputSHA256 = hex.EncodeToString(h.Sum(nil))
 	}
 	return proof.WriteFile(path, rep.Proof)
 }
