@@ -165,7 +165,9 @@ func pairedRatio(ref, f func()) float64 {
 
 // BenchmarkNewMemory reports New's peak memory as a multiple of the input
 // (issue 16: the whole certify within 3×, New within about 2×), for 256
-// Gaussian matrices of 64×64 (8 MiB) and 4000 of 2×4000 (256 MB). Each run
+// Gaussian matrices of 64×64 (8 MiB) and 4000 of 2×4000 (256 MB), New
+// copying the input (copy) and working in the input's array with the
+// input read again from an .npy file (inplace: Options.Reload). Each run
 // is a child process (this test binary running TestNewMemoryChild), so
 // that nothing else lives in its heap:
 //   - x-input: the child's peak resident size after New (getrusage's
@@ -181,13 +183,16 @@ func pairedRatio(ref, f func()) float64 {
 //
 //	go test ./subspace -run X -bench NewMemory -benchtime 1x
 func BenchmarkNewMemory(b *testing.B) {
-	for _, sh := range []struct{ r, m, n int }{{256, 64, 64}, {4000, 2, 4000}} {
-		b.Run(fmt.Sprintf("%dx%dx%d", sh.m, sh.n, sh.r), func(b *testing.B) {
+	for _, sh := range []struct {
+		r, m, n int
+		mode    string
+	}{{256, 64, 64, "copy"}, {256, 64, 64, "inplace"}, {4000, 2, 4000, "copy"}, {4000, 2, 4000, "inplace"}} {
+		b.Run(fmt.Sprintf("%dx%dx%d/%s", sh.m, sh.n, sh.r, sh.mode), func(b *testing.B) {
 			var rss, alloc float64
 			mib := func(v int64) float64 { return float64(v) / (1 << 20) }
 			for b.Loop() {
 				cmd := exec.Command(os.Args[0], "-test.run", "^TestNewMemoryChild$", "-test.count", "1")
-				cmd.Env = append(os.Environ(), fmt.Sprintf("SEGRE_NEWMEM=%d,%d,%d", sh.r, sh.m, sh.n))
+				cmd.Env = append(os.Environ(), fmt.Sprintf("SEGRE_NEWMEM=%d,%d,%d,%s", sh.r, sh.m, sh.n, sh.mode))
 				out, err := cmd.CombinedOutput()
 				if err != nil {
 					b.Fatalf("child: %v\n%s", err, out)

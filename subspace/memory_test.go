@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"path/filepath"
 	"runtime"
 	"testing"
 
@@ -237,16 +238,36 @@ func TestNewMemoryChild(t *testing.T) {
 		t.Skip("run by BenchmarkNewMemory")
 	}
 	var r, m, n int
-	if _, err := fmt.Sscanf(spec, "%d,%d,%d", &r, &m, &n); err != nil {
+	var mode string
+	if _, err := fmt.Sscanf(spec, "%d,%d,%d,%s", &r, &m, &n, &mode); err != nil {
 		t.Fatal(err)
 	}
 	b := randBasis(rand.New(rand.NewPCG(16, uint64(r))), r, m, n)
+	var opt Options
+	if mode == "inplace" {
+		// New in the input's array, the input read again from a file.
+		path := filepath.Join(t.TempDir(), "b.npy")
+		f, err := os.Create(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := WriteNPY(f, b); err != nil {
+			t.Fatal(err)
+		}
+		f.Close()
+		reload, closeFile, err := ReloadNPY(path, b)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer closeFile()
+		opt.Reload = reload
+	}
 	var ms runtime.MemStats
 	runtime.GC()
 	runtime.ReadMemStats(&ms)
 	alloc := ms.TotalAlloc
 	before := maxRSS()
-	if _, err := New(context.Background(), b, Options{}); err != nil {
+	if _, err := New(context.Background(), b, opt); err != nil {
 		t.Fatal(err)
 	}
 	after := maxRSS()
