@@ -92,6 +92,12 @@ func InputDistanceReload(ctx context.Context, count int, read func(t int, dst []
 	if count <= 0 || read == nil {
 		return 0, fmt.Errorf("%w: %d input matrices", ErrShape, count)
 	}
+	// Only r = k nonzero matrices can be proven, so the work limit is
+	// checked for r = k before anything is read (reading the input again
+	// is a pass over a file; ErrTooLarge then comes before ErrDependent).
+	if err := inputWorkFits(w, w.k); err != nil {
+		return 0, err
+	}
 	buf := make([]float64, w.m*w.n)
 	return inputDistance(ctx, count, func(t int) ([]float64, error) {
 		if err := read(t, buf); err != nil {
@@ -99,6 +105,17 @@ func InputDistanceReload(ctx context.Context, count int, read func(t int, dst []
 		}
 		return buf, nil
 	}, w)
+}
+
+// inputWorkFits returns an error wrapping ErrTooLarge when proving the
+// input span of r nonzero matrices is beyond the work or memory limit.
+func inputWorkFits(w *Subspace, r int) error {
+	L := w.m * w.n
+	work := float64(float64(L) * float64(r) * float64(max(w.s, r)))
+	if work+float64(float64(r)*float64(r)*float64(r)) > inputWork || int64(L)*int64(r)*8*3 > w.limit {
+		return fmt.Errorf("%w: proving the input span's distance for %d matrices of %d×%d is beyond the work limit", ErrTooLarge, r, w.m, w.n)
+	}
+	return nil
 }
 
 // inputDistance is InputDistance for count matrices given by get (each
@@ -118,9 +135,8 @@ func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, e
 	if r != w.k {
 		return 0, fmt.Errorf("%w: %d nonzero input matrices, the rank decision kept %d (tolerance %.3g)", ErrDependent, r, w.k, w.tol)
 	}
-	work := float64(float64(L) * float64(r) * float64(max(w.s, r)))
-	if work+float64(float64(r)*float64(r)*float64(r)) > inputWork || int64(L)*int64(r)*8*3 > w.limit {
-		return 0, fmt.Errorf("%w: proving the input span's distance for %d matrices of %d×%d is beyond the work limit", ErrTooLarge, r, w.m, w.n)
+	if err := inputWorkFits(w, r); err != nil {
+		return 0, err
 	}
 	stop := func() bool { return ctx.Err() != nil }
 	bt := make([]float64, r*L) // B̃, row j is scaled input matrix j
