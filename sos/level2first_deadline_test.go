@@ -6,6 +6,7 @@ import (
 	"sync/atomic"
 	"testing"
 
+	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 )
 
@@ -39,5 +40,42 @@ func TestLevelTwoFirstOrderKeepsItsBoundAtTheDeadline(t *testing.T) {
 	}
 	if r.Lower < 0.1685 || r.Lower > 0.16857110 {
 		t.Errorf("Lower %v after %d iterations, want about 0.16856 (a cut run keeps its verified bound)", r.Lower, r.Iterations)
+	}
+}
+
+// The interior-point level two cut by its deadline checks the certificate
+// of its last iterate and keeps its bound too (before, the check was cut
+// by the same deadline: Lower 0 whatever the iterate). The countdown is
+// set from a full run's number of context checks, minus a few, so that
+// the cut comes in the last iterations. Expected value as above: level
+// two's value on the embedded UPB complement is 0.1685711.
+func TestLevelTwoKeepsItsBoundAtTheDeadline(t *testing.T) {
+	w := mustNew(t, suite.Embed(suite.UPBComplement(), 6, 6))
+	count := &countdownCtx{Context: context.Background()}
+	count.n.Store(1 << 40)
+	full, err := (&LevelTwo{}).Search(count, w)
+	if err != nil || full.Lower < 0.1685 {
+		t.Fatalf("the full run: Lower %v, err %v", full.Lower, err)
+	}
+	checks := (1 << 40) - count.n.Load()
+	// The latest cut that falls inside the solve (fewer iterations than
+	// the full run's), found by stepping back 2% of the checks at a time.
+	var r rankone.Result
+	for n := checks - 1; ; n -= max(1, checks/50) {
+		if n <= 0 {
+			t.Fatal("no cut fell inside the solve")
+		}
+		ctx := &countdownCtx{Context: context.Background()}
+		ctx.n.Store(n)
+		r, err = (&LevelTwo{}).Search(ctx, w)
+		if !errors.Is(err, context.Canceled) {
+			t.Fatalf("the run was not cut by the deadline (err %v); the test needs it", err)
+		}
+		if r.Iterations < full.Iterations {
+			break
+		}
+	}
+	if r.Lower < 0.1685 || r.Lower > 0.16857110 {
+		t.Errorf("Lower %v after %d of %d iterations, want about 0.16857 (a cut run keeps its verified bound)", r.Lower, r.Iterations, full.Iterations)
 	}
 }
