@@ -255,10 +255,9 @@ func (ob *OperatorBatch) realSide(w *Subspace, pts [][]float64, gSide bool, st s
 	B := len(pts)
 	if w.freeSide(p, K) {
 		// Free of their factors: the points alone, each Apply a pass
-		// over the basis (applyFree).
+		// over the basis (ApplyG or ApplyH).
 		ob.count, ob.s, ob.p, ob.comp, ob.formed = B, w.s, p, w.comp, false
 		ob.shift = grow(&ob.shift, B)
-		ob.c = grow(&ob.c, p)
 		ob.stack(pts, K)
 		ob.free, ob.gSide, ob.k = w, gSide, K
 		return
@@ -814,15 +813,7 @@ func (ob *OperatorBatch) Apply(b int, dst, src []float64) {
 		return
 	}
 	if ob.free != nil {
-		if s > 0 {
-			applyFree(ob.free, ob.gSide, ob.v[b*ob.k:(b+1)*ob.k], p, ob.comp, ob.shift[b], dst, src)
-		} else if ob.comp {
-			for i := range dst {
-				dst[i] = ob.shift[b] * src[i]
-			}
-		} else {
-			clear(dst)
-		}
+		ob.free.applyOne(ob.gSide, dst, ob.v[b*ob.k:(b+1)*ob.k], src)
 		return
 	}
 	zt := ob.z[b*s*p : (b+1)*s*p] // Z_bᵀ, p×s

@@ -1,8 +1,6 @@
 package subspace
 
 import (
-	"fmt"
-
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 )
@@ -62,7 +60,7 @@ func (w *Subspace) SearchGOperator(y []float64) *Operator {
 	if w.cx == nil {
 		if w.freeSide(w.m, w.n) {
 			w.checkY(y, "y")
-			return &Operator{s: w.s, p: w.m, comp: w.comp, shift: dot(y, y), free: w, v: append([]float64(nil), y...), gSide: true}
+			return &Operator{p: w.m, free: w, v: append([]float64(nil), y...), gSide: true}
 		}
 		return w.GOperator(y)
 	}
@@ -97,7 +95,7 @@ func (w *Subspace) SearchHOperator(x []float64) *Operator {
 	if w.cx == nil {
 		if w.freeSide(w.n, w.m) {
 			w.checkX(x, "x")
-			return &Operator{s: w.s, p: w.n, comp: w.comp, shift: dot(x, x), free: w, v: append([]float64(nil), x...)}
+			return &Operator{p: w.n, free: w, v: append([]float64(nil), x...)}
 		}
 		return w.HOperator(x)
 	}
@@ -123,27 +121,22 @@ func (w *Subspace) SearchHOperator(x []float64) *Operator {
 
 // SearchApplyG sets dst = G(y)·x, as SearchGOperator(y).Apply(dst, x)
 // does and with the same bits, without holding G(y)'s factor for a real
-// subspace: its rows are made a chunk at a time (applyFree), one pass
-// over the basis. It panics on wrong lengths.
-func (w *Subspace) SearchApplyG(dst, y, x []float64) { w.searchApply(true, dst, y, x) }
-
-// SearchApplyH sets dst = H(x)·y as SearchApplyG does for G.
-func (w *Subspace) SearchApplyH(dst, x, y []float64) { w.searchApply(false, dst, x, y) }
-
-// searchApply is SearchApplyG (gSide) or SearchApplyH: dst = A(v)·u.
-func (w *Subspace) searchApply(gSide bool, dst, v, u []float64) {
-	op, vLen, p := w.SearchHOperator, w.m, w.n
-	if gSide {
-		op, vLen, p = w.SearchGOperator, w.n, w.m
-	}
-	if w.cx != nil || w.s == 0 {
-		op(v).Apply(dst, u)
+// subspace (ApplyG). It panics on wrong lengths.
+func (w *Subspace) SearchApplyG(dst, y, x []float64) {
+	if w.cx != nil {
+		w.SearchGOperator(y).Apply(dst, x)
 		return
 	}
-	if len(v) != vLen || len(u) != p || len(dst) != p {
-		panic(fmt.Sprintf("subspace: search operator of order %d at a point of length %d: have %d, %d and %d", p, vLen, len(v), len(u), len(dst)))
+	w.ApplyG(dst, y, x)
+}
+
+// SearchApplyH sets dst = H(x)·y as SearchApplyG does for G (ApplyH).
+func (w *Subspace) SearchApplyH(dst, x, y []float64) {
+	if w.cx != nil {
+		w.SearchHOperator(x).Apply(dst, y)
+		return
 	}
-	applyFree(w, gSide, v, p, w.comp, dot(v, v), dst, u)
+	w.ApplyH(dst, x, y)
 }
 
 // xPair returns (x_r, x_i) and (x_i, −x_r) for X = (x_r, x_i) of length

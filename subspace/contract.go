@@ -262,14 +262,15 @@ func (w *Subspace) H(dst *mat.SymDense, x []float64) {
 //
 // A search operator (SearchGOperator, SearchHOperator) of a real subspace
 // whose other side is tiny may instead be held free of its factor (see
-// freeSide): then each Apply makes the factor's rows again, a chunk at a
-// time, in one pass over the basis, and gives the same bits.
+// freeSide): then each Apply is ApplyG or ApplyH, which make the factor's
+// rows again a batch at a time, in one pass over the basis, and give the
+// same bits.
 type Operator struct {
 	z     []float64 // s×p: row t is Q_t y (or Q_tᵀ x)
 	s, p  int
 	comp  bool
 	shift float64   // ‖y‖² (or ‖x‖²), used when the complement is stored
-	free  *Subspace // the free form's basis (z is then nil)
+	free  *Subspace // the free form's basis (only p, v and gSide are then set)
 	v     []float64 // the free form's point: y (order m) or x (order n)
 	gSide bool      // the free form is G(y)
 }
@@ -287,8 +288,8 @@ func (op *Operator) Apply(dst, src []float64) {
 	if len(dst) != op.p || len(src) != op.p {
 		panic("subspace: Operator.Apply needs vectors of length " + itoa(op.p))
 	}
-	if op.free != nil && op.s > 0 {
-		applyFree(op.free, op.gSide, op.v, op.p, op.comp, op.shift, dst, src)
+	if op.free != nil {
+		op.free.applyOne(op.gSide, dst, op.v, src)
 		return
 	}
 	if op.s == 0 {
@@ -337,54 +338,6 @@ var freeMinEntries = 1 << 20
 // their factor: a real subspace only.
 func (w *Subspace) freeSide(p, other int) bool {
 	return w.cx == nil && other <= freeMaxSide && int64(w.s)*int64(p) >= int64(freeMinEntries)
-}
-
-// freeChunk is how many numbers of the factor a free Apply makes at a
-// time (rows of the factor, a multiple of eight of them).
-const freeChunk = 1 << 14
-
-// applyFree sets dst = A·src for the operator G(v) (len(v) = n, order
-// p = m) or H(v) (len(v) = m, order p = n) of w without its factor: the
-// factor's rows are made again, freeChunk numbers at a time, by the same
-// kernels as GOperator's and HOperator's (so the same bits), and the
-// chunk's c = Z·src and Zᵀc are taken as in Operator.Apply. axpyRows adds
-// in order of t and dotRows makes each entry alone, so the chunks give
-// dst exactly the factored Apply's numbers. dst and src may be the same.
-func applyFree(w *Subspace, gSide bool, v []float64, p int, comp bool, shift float64, dst, src []float64) {
-	L := w.m * w.n
-	T := max(8, freeChunk/max(p, 1)/8*8)
-	T = min(T, w.s)
-	h, buf := getScratch(T*p + T + p)
-	z, c, in := buf[:T*p], buf[T*p:T*p+T], buf[T*p+T:]
-	copy(in, src)
-	if comp {
-		for i := range dst {
-			dst[i] = shift * in[i]
-		}
-	} else {
-		clear(dst)
-	}
-	for t0 := 0; t0 < w.s; t0 += T {
-		nt := min(T, w.s-t0)
-		zc, cc := z[:nt*p], c[:nt]
-		if gSide { // G(y): rows Q_t y
-			dotRows(zc, w.q[t0*L:], w.n, v)
-		} else { // H(x): rows Q_tᵀ x
-			for t := 0; t < nt; t++ {
-				zt := zc[t*p : (t+1)*p]
-				clear(zt)
-				axpyRows(zt, v, w.q[(t0+t)*L:], w.n)
-			}
-		}
-		dotRows(cc, zc, p, in)
-		if comp {
-			for t := range cc {
-				cc[t] = -cc[t]
-			}
-		}
-		axpyRows(dst, cc, zc, p)
-	}
-	putScratch(h)
 }
 
 // GOperator returns G(y) (order m) in factored form: one dotRows over the
@@ -501,6 +454,15 @@ func (w *Subspace) ApplyH(dst, x, y []float64) {
 	}
 }
 
+// applyOne is ApplyG (gSide: dst = G(v)·u) or ApplyH (dst = H(v)·u).
+func (w *Subspace) applyOne(gSide bool, dst, v, u []float64) {
+	if gSide {
+		w.ApplyG(dst, v, u)
+	} else {
+		w.ApplyH(dst, v, u)
+	}
+}
+
 // applyStart sets acc, the accumulator of ApplyG or ApplyH for the vector
 // v the operator is applied to (u the other side), to zero, or to ‖u‖²·v
 // when W⊥ is stored (Apply's start).
@@ -566,7 +528,7 @@ func (w *Subspace) ApplyPartialTrace2(dst, y []float64) {
 	if w.s > 0 {
 		// Rows of Z = [Q_t y]_t a chunk at a time, added in order.
 		rows := w.s * w.m
-		T := min(rows, max(w.m, freeChunk))
+		T := min(rows, max(w.m, batchRows))
 		h, z := getScratch(T)
 		for r0 := 0; r0 < rows; r0 += T {
 			nr := min(T, rows-r0)

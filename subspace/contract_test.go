@@ -352,7 +352,7 @@ func checkContractions(t *testing.T, w *Subspace, rng *rand.Rand) {
 		// Apply may write over its argument.
 		alias := append([]float64(nil), src...)
 		op.Apply(alias, alias)
-		if !sameBits(alias, dst) {
+		if !bitsEqual(alias, dst) {
 			t.Errorf("side %d: Apply(v, v) differs from Apply(dst, v)", side)
 		}
 		// ApplyG and ApplyH are Apply on the operator, bit for bit (their
@@ -364,7 +364,7 @@ func checkContractions(t *testing.T, w *Subspace, rng *rand.Rand) {
 		} else {
 			w.ApplyH(other, x, src)
 		}
-		if !sameBits(other, dst) {
+		if !bitsEqual(other, dst) {
 			t.Errorf("side %d: ApplyG/ApplyH differ from the operator's Apply", side)
 		}
 		copy(other, src)
@@ -373,7 +373,7 @@ func checkContractions(t *testing.T, w *Subspace, rng *rand.Rand) {
 		} else {
 			w.ApplyH(other, x, other)
 		}
-		if !sameBits(other, dst) {
+		if !bitsEqual(other, dst) {
 			t.Errorf("side %d: ApplyG/ApplyH with dst = its vector differ", side)
 		}
 
@@ -433,16 +433,4 @@ func dotRef(a, b []float64) float64 {
 	}
 	r, _ := acc.Result()
 	return r
-}
-
-func sameBits(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
 }

@@ -8,10 +8,11 @@ import (
 )
 
 // A search operator held free of its factor (freeSide) gives the factored
-// operator's numbers bit for bit (derived in applyFree: the factor's rows
-// are made by the same kernels, and the chunks add in order of t as one
-// axpyRows does), alone and in a batch, for both sides, with W and with
-// W⊥ stored, src and dst the same slice or not. The batch's free operators
+// operator's numbers bit for bit (derived at ApplyG and ApplyH, which it
+// calls: the factor's rows are made by the same kernels, and the batches
+// add in order of t as one axpyRows does), alone and in a batch, for
+// both sides, with W and with W⊥ stored, src and dst the same slice or
+// not. The batch's free operators
 // agree with its factored ones (tiles, which may fuse) to 1e-12 relative,
 // common practice for two orderings of the same sums (see
 // TestBatchMatchesOperators).
@@ -110,8 +111,9 @@ func TestFreeOperators(t *testing.T) {
 }
 
 // SearchApplyG and SearchApplyH give the search operators' Apply bit for
-// bit (derived in applyFree), for both sides of real subspaces with W and
-// with W⊥ stored, and of a complex one (where they are that Apply).
+// bit (derived at ApplyG and ApplyH, which they call for a real
+// subspace), for both sides of real subspaces with W and with W⊥ stored,
+// and of a complex one (where they are that Apply).
 func TestSearchApply(t *testing.T) {
 	rng := rand.New(rand.NewPCG(23, 24))
 	for _, c := range batchCases(t, rng) {

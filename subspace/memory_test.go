@@ -168,7 +168,7 @@ func TestNewMatchesFullArrays(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				if !sameFloats(w.q, q) {
+				if !bitsEqual(w.q, q) {
 					t.Fatalf("GOMAXPROCS %d: stored vectors differ from the full-array path", procs)
 				}
 				for _, v := range [][3]any{{"η", w.eta, eta}, {"orthogonality", w.orthFl, orth}, {"reconstruction", w.recon, recon}} {
@@ -179,19 +179,6 @@ func TestNewMatchesFullArrays(t *testing.T) {
 			}
 		})
 	}
-}
-
-// sameFloats reports whether a and b hold the same float64 bit patterns.
-func sameFloats(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
 }
 
 // tolOf is the rank tolerance New uses for b and Options.RankTol tol.
