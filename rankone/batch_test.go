@@ -8,6 +8,7 @@ import (
 	"slices"
 	"testing"
 
+	"github.com/segre-lab/segre/internal/reference"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/searchtest"
 	"github.com/segre-lab/segre/rankone/suite"
@@ -49,18 +50,7 @@ func batchSubspaces(t *testing.T) map[string]*subspace.Subspace {
 // randomStarts returns count unit starts for w from a fixed seed.
 func randomStarts(w *subspace.Subspace, count int, seed uint64) (xs, ys [][]float64) {
 	rng := rand.New(rand.NewPCG(seed, 99))
-	unit := func(k int) []float64 {
-		v := make([]float64, k)
-		var ss float64
-		for i := range v {
-			v[i] = rng.NormFloat64()
-			ss += v[i] * v[i]
-		}
-		for i := range v {
-			v[i] /= math.Sqrt(ss)
-		}
-		return v
-	}
+	unit := func(k int) []float64 { return reference.RandUnit(rng, k) }
 	for range count {
 		xs, ys = append(xs, unit(w.Rows())), append(ys, unit(w.Cols()))
 	}

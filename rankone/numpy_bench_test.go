@@ -18,6 +18,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/segre-lab/segre/internal/reference"
 	"github.com/segre-lab/segre/rankone"
 	"github.com/segre-lab/segre/rankone/suite"
 	"github.com/segre-lab/segre/subspace"
@@ -126,18 +127,7 @@ const numpyStarts = 32
 // fixed seed, as two B×m and B×n row-major arrays.
 func alsStarts(m, n, b int, seed uint64) (xs, ys []float64) {
 	rng := rand.New(rand.NewPCG(seed, 0x57a7))
-	unit := func(k int) []float64 {
-		v := make([]float64, k)
-		var ss float64
-		for i := range v {
-			v[i] = rng.NormFloat64()
-			ss += v[i] * v[i]
-		}
-		for i := range v {
-			v[i] /= math.Sqrt(ss)
-		}
-		return v
-	}
+	unit := func(k int) []float64 { return reference.RandUnit(rng, k) }
 	for range b {
 		xs = append(xs, unit(m)...)
 		ys = append(ys, unit(n)...)

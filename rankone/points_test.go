@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/segre-lab/segre/internal/reference"
 	"github.com/segre-lab/segre/rankone"
 
 	"gonum.org/v1/gonum/mat"
@@ -36,18 +37,8 @@ func spanOf(rng *rand.Rand, a, b [][]float64) subspace.Basis {
 	return subspace.Basis{Count: r, Rows: m, Cols: n, Data: d}
 }
 
-func gauss(rng *rand.Rand, n int) []float64 {
-	v := make([]float64, n)
-	var s float64
-	for i := range v {
-		v[i] = rng.NormFloat64()
-		s += v[i] * v[i]
-	}
-	for i := range v {
-		v[i] /= math.Sqrt(s)
-	}
-	return v
-}
+// gauss is a random unit vector (reference.RandUnit).
+func gauss(rng *rand.Rand, n int) []float64 { return reference.RandUnit(rng, n) }
 
 func matchAll(t *testing.T, pts []rankone.Point, a, b [][]float64) {
 	t.Helper()
