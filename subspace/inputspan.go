@@ -79,18 +79,20 @@ func InputDistance(ctx context.Context, b Basis, w *Subspace) (theta float64, er
 		// can tell it from a copy of the input.
 		return 0, fmt.Errorf("%w: the subspace was built in the input's array (Options.Reload); prove its input span with InputDistanceReload", ErrUnproven)
 	}
-	return inputDistance(ctx, b.Count, func(t int) ([]float64, error) { return b.Data[t*L : (t+1)*L], nil }, w)
+	return inputDistance(ctx, b.Count, -1, func(t int) ([]float64, error) { return b.Data[t*L : (t+1)*L], nil }, w)
 }
 
 // InputDistanceReload is InputDistance for count input matrices read
 // through read (as Options.Reload does: matrix t, m·n entries, into dst),
-// for an input that New factored in place. The bound is proven for the
-// numbers read (twice each: once to count the nonzero matrices, once to
-// copy them); ReloadNPY's function checks that they are the ones New
-// factored. An error from read is returned, wrapped.
+// for the input that New factored in place (count must be the number of
+// matrices New was given). The bound is proven for the numbers read, once
+// each: the number of nonzero matrices is New's (Inputs), and a reading
+// with another number is refused (ErrUnproven); ReloadNPY's function
+// checks that they are the numbers New factored. An error from read is
+// returned, wrapped.
 func InputDistanceReload(ctx context.Context, count int, read func(t int, dst []float64) error, w *Subspace) (theta float64, err error) {
-	if count <= 0 || read == nil {
-		return 0, fmt.Errorf("%w: %d input matrices", ErrShape, count)
+	if count <= 0 || read == nil || count != w.inputs {
+		return 0, fmt.Errorf("%w: %d input matrices for a subspace built from %d", ErrShape, count, w.inputs)
 	}
 	// Only r = k nonzero matrices can be proven, so the work limit is
 	// checked for r = k before anything is read (reading the input again
@@ -99,7 +101,7 @@ func InputDistanceReload(ctx context.Context, count int, read func(t int, dst []
 		return 0, err
 	}
 	buf := make([]float64, w.m*w.n)
-	return inputDistance(ctx, count, func(t int) ([]float64, error) {
+	return inputDistance(ctx, count, w.inputs-w.zeros, func(t int) ([]float64, error) {
 		if err := read(t, buf); err != nil {
 			return nil, fmt.Errorf("subspace: reading matrix %d again: %w", t, err)
 		}
@@ -119,17 +121,20 @@ func inputWorkFits(w *Subspace, r int) error {
 }
 
 // inputDistance is InputDistance for count matrices given by get (each
-// slice valid until the next call).
-func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, error), w *Subspace) (theta float64, err error) {
+// slice valid until the next call), r of them nonzero: counted here in a
+// first pass when r < 0, else known (the copy below checks it).
+func inputDistance(ctx context.Context, count, r int, get func(t int) ([]float64, error), w *Subspace) (theta float64, err error) {
 	L := w.m * w.n
-	r := 0
-	for t := 0; t < count; t++ {
-		src, err := get(t)
-		if err != nil {
-			return 0, err
-		}
-		if accurate.MaxAbs(src) != 0 {
-			r++
+	if r < 0 {
+		r = 0
+		for t := 0; t < count; t++ {
+			src, err := get(t)
+			if err != nil {
+				return 0, err
+			}
+			if accurate.MaxAbs(src) != 0 {
+				r++
+			}
 		}
 	}
 	if r != w.k {
@@ -150,7 +155,7 @@ func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, e
 		if mx == 0 {
 			continue
 		}
-		if j == r { // a reloaded input that changed between the passes
+		if j == r { // a reloaded input that is not the one New counted
 			return 0, fmt.Errorf("%w: the input gave %d nonzero matrices, then more", ErrUnproven, r)
 		}
 		_, e := math.Frexp(mx)
@@ -164,7 +169,7 @@ func inputDistance(ctx context.Context, count int, get func(t int) ([]float64, e
 		}
 		j++
 	}
-	if j != r { // a reloaded input that changed between the passes
+	if j != r { // a reloaded input that is not the one New counted
 		return 0, fmt.Errorf("%w: the input gave %d nonzero matrices, then %d", ErrUnproven, r, j)
 	}
 	var num, sigma float64

@@ -130,8 +130,8 @@ func TestReloadRefuses(t *testing.T) {
 // A Subspace built in the input's array proves its input span only through
 // InputDistanceReload: InputDistance refuses (ErrUnproven), since the
 // array now holds the stored basis and "proving" it against itself would
-// give a bound near zero whatever the input was. A reload whose second
-// pass gives more nonzero matrices than the first is refused too.
+// give a bound near zero whatever the input was. A reading with more
+// nonzero matrices than New counted, or another count, is refused too.
 func TestInputDistanceInPlaceRefused(t *testing.T) {
 	rng := rand.New(rand.NewPCG(35, 36))
 	ctx := context.Background()
@@ -154,19 +154,18 @@ func TestInputDistanceInPlaceRefused(t *testing.T) {
 	if _, err := InputDistanceReload(ctx, 6, reload, w); err != nil {
 		t.Errorf("InputDistanceReload: %v", err)
 	}
-	pass := 0
-	changing := func(t int, dst []float64) error {
-		if t == 0 {
-			pass++
-		}
+	changed := func(t int, dst []float64) error {
 		copy(dst, orig[t*20:(t+1)*20])
-		if pass == 2 && t == 2 {
-			dst[5] = 1 // the zero matrix is not zero the second time
+		if t == 2 {
+			dst[5] = 1 // the matrix New found zero is not zero now
 		}
 		return nil
 	}
-	if _, err := InputDistanceReload(ctx, 6, changing, w); !errors.Is(err, ErrUnproven) {
-		t.Errorf("a second pass with one more nonzero matrix: %v, want ErrUnproven", err)
+	if _, err := InputDistanceReload(ctx, 6, changed, w); !errors.Is(err, ErrUnproven) {
+		t.Errorf("a reading with one more nonzero matrix than New's: %v, want ErrUnproven", err)
+	}
+	if _, err := InputDistanceReload(ctx, 5, reload, w); !errors.Is(err, ErrShape) {
+		t.Errorf("a count other than New's: %v, want ErrShape", err)
 	}
 }
 
