@@ -89,10 +89,7 @@ func (a *ALS) RefineBatch(ctx context.Context, w *subspace.Subspace, xs, ys [][]
 func batchFit(w *subspace.Subspace) int {
 	per := 2 * w.BatchBytes(1) // the G and H operators
 	fit := max(1, w.MemoryLimit()/batchShare/max(per, 1))
-	s := int64(w.Dim())
-	if w.StoresComplement() {
-		s = int64(w.Rows())*int64(w.Cols()) - s
-	}
+	s := int64(w.Stored().Count())
 	budget := max(8*s*int64(w.Rows())*int64(w.Cols())/2, 1<<20)
 	return int(max(1, min(fit, budget/max(1, w.PointBytes()))))
 }
