@@ -8,6 +8,8 @@ import (
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/segre-lab/segre/internal/reference"
 )
 
 // refEigen is gonum's full decomposition of v, computed on v scaled by a
@@ -61,16 +63,7 @@ func refNegPart(t *testing.T, v []float64, n int) []float64 {
 // withSpectrum returns Q diag(ev) Qᵀ for a random orthogonal Q.
 func withSpectrum(rng *rand.Rand, ev []float64) []float64 {
 	n := len(ev)
-	g := mat.NewDense(n, n, nil)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			g.Set(i, j, rng.NormFloat64())
-		}
-	}
-	var qr mat.QR
-	qr.Factorize(g)
-	var q mat.Dense
-	qr.QTo(&q)
+	q := reference.RandOrthogonal(rng, n)
 	out := make([]float64, n*n)
 	for i := 0; i < n; i++ {
 		for j := i; j < n; j++ {
